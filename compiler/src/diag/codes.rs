@@ -1,0 +1,56 @@
+//! The catalogue of diagnostic codes: identifier, default severity, title, and the
+//! long explanation with an example that `reckon explain CODE` prints.
+//!
+//! Codes are stable: never renumber or reuse one. Ranges:
+//! `E01xx` syntax, `E02xx` names and structure, `E03xx` units and dimensions,
+//! `E04xx` noise and distributions, `E05xx` sensors and gates, `E06xx` methods and
+//! back ends, `E07xx` project files, `W08xx` warnings.
+//! Every code must have a test in the invalid-spec corpus (a test enforces it).
+
+use super::Severity;
+
+/// A diagnostic code and its documentation.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct Code {
+    /// Stable identifier such as `E0301`.
+    pub id: &'static str,
+    /// Default severity.
+    pub severity: Severity,
+    /// Short title.
+    pub title: &'static str,
+    /// Long explanation with a small example (plain text, may span lines).
+    pub explanation: &'static str,
+}
+
+impl serde::Serialize for Code {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(self.id)
+    }
+}
+
+/// Looks a code up by identifier (case-insensitive).
+pub fn find(id: &str) -> Option<Code> {
+    ALL.iter().copied().find(|c| c.id.eq_ignore_ascii_case(id))
+}
+
+macro_rules! codes {
+    ($($name:ident = $id:literal, $sev:ident, $title:literal, $expl:literal;)*) => {
+        $(
+            #[doc = $title]
+            pub const $name: Code = Code {
+                id: $id,
+                severity: Severity::$sev,
+                title: $title,
+                explanation: $expl,
+            };
+        )*
+        /// Every code, in catalogue order.
+        pub const ALL: &[Code] = &[$($name),*];
+    };
+}
+
+codes! {
+    // Entries are added by each stage as it grows; keep ids unique and sorted.
+    INTERNAL = "E0001", Error, "internal error in reckon",
+        "The compiler reached a state it believed impossible. This is a bug in reckon, not in your spec.\nPlease report it with the spec that triggers it.";
+}

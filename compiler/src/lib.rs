@@ -1,0 +1,11 @@
+//! reckon: a compiler from state-estimator specs to checked models, symbolic
+//! derivatives, generated Rust estimators and simulations.
+//!
+//! The library is pure: text in, artifacts and diagnostics out. It prints nothing
+//! and exits nothing; the `reckon` binary and the build-script API do the I/O.
+//! Stages, in pipeline order: [`syntax`] (text to AST), [`check`] (AST to the checked
+//! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
+
+pub mod diag;
+pub mod model;
+pub mod units;

@@ -1,0 +1,3 @@
+//! reckon-runtime: the predict/correct machinery shared by generated estimators and
+//! the simulator.
+#![no_std]

@@ -8,5 +8,7 @@
 
 pub mod diag;
 pub mod model;
+pub mod options;
+pub mod project;
 pub mod stats;
 pub mod units;

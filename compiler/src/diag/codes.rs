@@ -53,4 +53,6 @@ codes! {
     // Entries are added by each stage as it grows; keep ids unique and sorted.
     INTERNAL = "E0001", Error, "internal error in reckon",
         "The compiler reached a state it believed impossible. This is a bug in reckon, not in your spec.\nPlease report it with the spec that triggers it.";
+    PROJECT_FILE_INVALID = "E0701", Error, "the project file is not valid",
+        "`reckon.toml` could not be read: a key is unknown, a value has the wrong type, or a\nrequired key is missing. Each `[[estimator]]` table needs `spec` and `output`:\n\n    [[estimator]]\n    spec = \"specs/rail_cart.reckon\"\n    output = \"src/rail_cart.rs\"\n    method = \"ekf\"      # kf, ekf, ukf, grid, particle\n    scalar = \"f32\"      # f32 or f64\n";
 }

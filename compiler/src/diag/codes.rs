@@ -9,9 +9,9 @@
 
 use super::Severity;
 
-/// A diagnostic code and its documentation.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub struct Code {
+/// The documentation of a diagnostic code.
+#[derive(Debug, PartialEq, Eq, Hash)]
+pub struct CodeInfo {
     /// Stable identifier such as `E0301`.
     pub id: &'static str,
     /// Default severity.
@@ -20,6 +20,19 @@ pub struct Code {
     pub title: &'static str,
     /// Long explanation with a small example (plain text, may span lines).
     pub explanation: &'static str,
+}
+
+/// A diagnostic code: a pointer-sized handle to its [`CodeInfo`] (fields readable
+/// through `Deref`, e.g. `code.id`), so diagnostics stay small.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct Code(&'static CodeInfo);
+
+impl std::ops::Deref for Code {
+    type Target = CodeInfo;
+
+    fn deref(&self) -> &CodeInfo {
+        self.0
+    }
 }
 
 impl serde::Serialize for Code {
@@ -37,12 +50,12 @@ macro_rules! codes {
     ($($name:ident = $id:literal, $sev:ident, $title:literal, $expl:literal;)*) => {
         $(
             #[doc = $title]
-            pub const $name: Code = Code {
+            pub const $name: Code = Code(&CodeInfo {
                 id: $id,
                 severity: Severity::$sev,
                 title: $title,
                 explanation: $expl,
-            };
+            });
         )*
         /// Every code, in catalogue order.
         pub const ALL: &[Code] = &[$($name),*];

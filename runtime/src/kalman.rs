@@ -24,7 +24,7 @@ where
 }
 
 /// A correction's result before it is committed, with the innovation to report.
-type Corrected<T, N, M> = (Moments<T, N>, Innovation<T, M>);
+pub(crate) type Corrected<T, N, M> = (Moments<T, N>, Innovation<T, M>);
 
 /// Why a filter could not be created or configured.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]

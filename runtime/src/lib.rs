@@ -21,7 +21,7 @@ pub mod kalman;
 pub mod linalg;
 pub mod model;
 pub mod outcome;
-// pub mod unscented;
+pub mod unscented;
 
 #[cfg(test)]
 mod test_models;
@@ -30,7 +30,7 @@ pub use health::{CovarianceLimits, Health};
 pub use kalman::{InitError, KalmanFilter};
 pub use model::{MotionModel, ReadingModel, UpdateForm};
 pub use outcome::{CorrectError, Innovation, PredictError};
-// pub use unscented::{UnscentedError, UnscentedParams, UnscentedWeights};
+pub use unscented::{UnscentedError, UnscentedParams, UnscentedWeights};
 
 /// The scalar types the filters run on: `f32` and `f64`.
 ///

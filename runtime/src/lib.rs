@@ -15,7 +15,7 @@
 #![warn(missing_docs)]
 
 pub mod angle;
-// pub mod expm;
+pub mod expm;
 pub mod health;
 pub mod kalman;
 pub mod linalg;

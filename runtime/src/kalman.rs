@@ -509,7 +509,9 @@ mod tests {
     extern crate std;
 
     use super::*;
-    use crate::test_models::{ConstantVelocity, RandomConstant, RangeBearing, Unicycle};
+    use crate::test_models::{
+        ConstantVelocity, LinearReading, RandomConstant, RangeBearing, Unicycle,
+    };
     use nalgebra::{Matrix1, Matrix2, Matrix3, Vector1, Vector2, Vector3, U3};
 
     fn no_input() -> OVector<f64, nalgebra::Const<0>> {
@@ -839,5 +841,103 @@ mod tests {
             KalmanFilter::new(Vector1::new(0.0), Matrix1::new(-1.0)),
             Err(InitError::NegativeVariance)
         );
+    }
+
+    #[test]
+    fn joseph_form_stays_positive_definite_in_f32_where_short_form_fails() {
+        // Bucy & Joseph (1968), ch. 16: the Joseph form keeps the covariance symmetric
+        // positive definite under round-off; the short form (I - K H) P does not. The
+        // example: an f32 constant-velocity track, a reading 1e8 times more precise than
+        // the prior (P0 = 100 I, R = 1e-6), small process noise.
+        let model = ConstantVelocity { q: 1e-4, r: 1e-6 };
+        let p0 = Matrix2::<f32>::identity() * 100.0;
+        let mut filter = KalmanFilter::new(Vector2::new(0.0_f32, 0.0), p0).unwrap();
+        let mut short = p0;
+        let mut short_failed_at = None;
+        let none = OVector::<f32, nalgebra::Const<0>>::zeros();
+        let h = nalgebra::RowVector2::new(1.0_f32, 0.0);
+        // One million steps take well under a second at the test profile's opt-level 1.
+        for step in 0..1_000_000 {
+            let reading = Vector1::new((step % 13) as f32 * 1e-3);
+            filter.predict(&model, &none, 0.1).unwrap();
+            filter.correct(&model, &reading, &(), None).unwrap();
+            let p = filter.covariance();
+            assert_eq!(p[(0, 1)].to_bits(), p[(1, 0)].to_bits(), "step {step}");
+            assert!(crate::linalg::is_positive_definite(p), "step {step}: {p}");
+
+            if short_failed_at.is_none() {
+                let mut prior = Matrix2::zeros();
+                MotionModel::<f32, _, _>::propagate_covariance(
+                    &model,
+                    &short,
+                    filter.state(),
+                    &none,
+                    0.1,
+                    &mut prior,
+                );
+                let gain = prior * h.transpose() / ((h * prior * h.transpose())[0] + 1e-6);
+                short = (Matrix2::identity() - gain * h) * prior;
+                let symmetric_part = (short + short.transpose()) * 0.5;
+                if !crate::linalg::is_positive_definite(&symmetric_part) {
+                    short_failed_at = Some(step);
+                }
+            }
+        }
+        assert!(
+            short_failed_at.is_some(),
+            "the example no longer separates the forms"
+        );
+    }
+
+    fn spd3(entries: &[f64], jitter: f64) -> Matrix3<f64> {
+        let root = Matrix3::from_row_slice(entries);
+        root * root.transpose() + Matrix3::identity() * jitter
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn joseph_covariance_is_symmetric_psd_for_any_gain(
+            p_root in proptest::collection::vec(-2.0..2.0_f64, 9),
+            h_entries in proptest::collection::vec(-2.0..2.0_f64, 6),
+            gain_entries in proptest::collection::vec(-3.0..3.0_f64, 6),
+            r_diag in proptest::collection::vec(1e-3..4.0_f64, 2),
+            r_corr in -0.9..0.9_f64,
+        ) {
+            // Bucy & Joseph (1968): the Joseph form is a congruence plus a PSD term, so it is
+            // symmetric PSD for any gain, optimal or not.
+            let p = spd3(&p_root, 1e-3);
+            let h = nalgebra::Matrix2x3::from_row_slice(&h_entries);
+            let gain = nalgebra::Matrix3x2::from_row_slice(&gain_entries);
+            let off = r_corr * (r_diag[0] * r_diag[1]).sqrt();
+            let r = Matrix2::new(r_diag[0], off, off, r_diag[1]);
+            let result = joseph_covariance(&p, &h, &r, &gain);
+            let scale = result.norm().max(1.0);
+            proptest::prop_assert!((result - result.transpose()).norm() <= 1e-12 * scale);
+            let eigen = ((result + result.transpose()) * 0.5).symmetric_eigenvalues();
+            proptest::prop_assert!(eigen.min() >= -1e-12 * scale, "{eigen}");
+        }
+
+        #[test]
+        fn sequential_update_equals_batch_update_for_diagonal_noise(
+            p_root in proptest::collection::vec(-2.0..2.0_f64, 9),
+            h_entries in proptest::collection::vec(-2.0..2.0_f64, 6),
+            r_diag in proptest::collection::vec(1e-2..4.0_f64, 2),
+            x in proptest::collection::vec(-5.0..5.0_f64, 3),
+            z in proptest::collection::vec(-5.0..5.0_f64, 2),
+        ) {
+            // Sequential processing of uncorrelated reading components is exact for a
+            // linear reading (common practice, no source); the NIS sums likewise.
+            let p = spd3(&p_root, 1e-2);
+            let h = nalgebra::Matrix2x3::from_row_slice(&h_entries);
+            let r = Matrix2::new(r_diag[0], 0.0, 0.0, r_diag[1]);
+            let z = Vector2::new(z[0], z[1]);
+            let mut batch = KalmanFilter::new(Vector3::new(x[0], x[1], x[2]), p).unwrap();
+            let mut sequential = batch.clone();
+            let a = batch.correct(&LinearReading { h, r, form: UpdateForm::Joseph }, &z, &(), None).unwrap();
+            let b = sequential.correct(&LinearReading { h, r, form: UpdateForm::SequentialScalar }, &z, &(), None).unwrap();
+            proptest::prop_assert!((batch.state() - sequential.state()).norm() <= 1e-8 * (1.0 + batch.state().norm()));
+            proptest::prop_assert!((batch.covariance() - sequential.covariance()).norm() <= 1e-8 * (1.0 + p.norm()));
+            proptest::prop_assert!((a.nis - b.nis).abs() <= 1e-8 * (1.0 + a.nis));
+        }
     }
 }

@@ -222,3 +222,29 @@ impl<T: Real> ReadingModel<T, U3, U2> for RangeBearing {
         self.form
     }
 }
+
+/// A linear reading `z = H x` of a three-component state, with noise `R`.
+pub struct LinearReading {
+    pub h: nalgebra::Matrix2x3<f64>,
+    pub r: Matrix2<f64>,
+    pub form: UpdateForm,
+}
+
+impl ReadingModel<f64, U3, U2> for LinearReading {
+    type Args = ();
+    fn reading_dim(&self) -> U2 {
+        U2
+    }
+    fn predict_reading(&self, x: &OVector<f64, U3>, _: &(), z_hat: &mut OVector<f64, U2>) {
+        *z_hat = self.h * x;
+    }
+    fn reading_jacobian(&self, _: &OVector<f64, U3>, _: &(), h: &mut OMatrix<f64, U2, U3>) {
+        h.copy_from(&self.h);
+    }
+    fn reading_noise(&self, _: &OVector<f64, U3>, _: &(), r: &mut OMatrix<f64, U2, U2>) {
+        r.copy_from(&self.r);
+    }
+    fn update_form(&self) -> UpdateForm {
+        self.form
+    }
+}

@@ -268,9 +268,46 @@ impl std::error::Error for UnknownUnit {}
 /// The unit named by one symbol (no operators): a catalogue symbol, or one SI prefix
 /// and a prefixable catalogue symbol. See the module header for the reading rules.
 pub fn lookup(symbol: &str) -> Result<Unit, UnknownUnit> {
-    resolve(symbol).ok_or_else(|| UnknownUnit {
+    reading(symbol).map(|r| r.unit).ok_or_else(|| UnknownUnit {
         symbol: symbol.to_string(),
         suggestions: suggestions(symbol),
+    })
+}
+
+/// How a symbol was read: which prefix (if any) and which catalogue row, so that a
+/// diagnostic or a generated document can say "`ms` is read as milli + second".
+#[derive(Debug, Clone, Copy)]
+pub struct Reading {
+    /// The prefix, when the symbol carries one.
+    pub prefix: Option<&'static Prefix>,
+    /// The catalogue row.
+    pub entry: &'static CatalogueEntry,
+    /// The resulting unit (prefix factor included).
+    pub unit: Unit,
+}
+
+/// The reading of one symbol, or `None` when it names no unit.
+pub fn reading(symbol: &str) -> Option<Reading> {
+    if let Some((entry, unit)) = find_row(symbol) {
+        return Some(Reading {
+            prefix: None,
+            entry,
+            unit,
+        });
+    }
+    PREFIXES.iter().find_map(|prefix| {
+        prefix.symbols.iter().find_map(|spelling| {
+            let (entry, unit) = find_row(symbol.strip_prefix(spelling)?)?;
+            if !entry.prefixable {
+                return None;
+            }
+            let scale = unit.scale.mul(&prefix.scale()?)?;
+            Some(Reading {
+                prefix: Some(prefix),
+                entry,
+                unit: Unit::new(unit.dimension, scale),
+            })
+        })
     })
 }
 
@@ -286,22 +323,6 @@ fn find_row(symbol: &str) -> Option<(&'static CatalogueEntry, Unit)> {
         .zip(row_units())
         .find(|(entry, _)| entry.symbols.contains(&symbol))
         .and_then(|(entry, unit)| Some((entry, (*unit)?)))
-}
-
-fn resolve(symbol: &str) -> Option<Unit> {
-    if let Some((_, unit)) = find_row(symbol) {
-        return Some(unit);
-    }
-    PREFIXES.iter().find_map(|prefix| {
-        prefix.symbols.iter().find_map(|spelling| {
-            let rest = symbol.strip_prefix(spelling)?;
-            let (entry, unit) = find_row(rest)?;
-            if !entry.prefixable {
-                return None;
-            }
-            Some(Unit::new(unit.dimension, unit.scale.mul(&prefix.scale()?)?))
-        })
-    })
 }
 
 /// Every accepted spelling: catalogue symbols, then prefixed forms.
@@ -584,6 +605,18 @@ mod tests {
         for symbol in ["kmin", "mdeg", "kft", "mkm", "kkg", "Mh", "mG", "mrpm", ""] {
             assert!(lookup(symbol).is_err(), "{symbol}");
         }
+    }
+
+    #[test]
+    fn readings_name_prefix_and_row() {
+        let millisecond = reading("ms").expect("ms");
+        assert_eq!(millisecond.prefix.map(|p| p.name), Some("milli"));
+        assert_eq!(millisecond.entry.name, "second");
+        let minute = reading("min").expect("min");
+        assert!(minute.prefix.is_none());
+        assert_eq!(minute.entry.name, "minute");
+        assert_eq!(reading("kohm").map(|r| r.unit), Some(unit("kΩ")));
+        assert!(reading("mkm").is_none());
     }
 
     #[test]

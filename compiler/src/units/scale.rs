@@ -190,8 +190,27 @@ impl Scale {
     ///
     /// Integer prime powers are multiplied out exactly in `u128` first, so a factor
     /// that is a ratio of integers below 2^53 (every catalogue factor without pi) is a
-    /// single correctly rounded division; pi and roots each add one rounding.
+    /// single correctly rounded division; pi and roots each add one rounding. When the
+    /// parts themselves overflow `f64` (only for absurd factors), the value is summed
+    /// in logarithms instead, so it is still the right magnitude or an honest infinity.
     pub fn to_f64(&self) -> f64 {
+        let value = self.value_by_parts();
+        if value.is_normal() {
+            value
+        } else {
+            self.value_by_logarithms()
+        }
+    }
+
+    fn value_by_logarithms(&self) -> f64 {
+        let logarithm: f64 = self
+            .prime_exponents()
+            .map(|(prime, exponent)| exponent.to_f64() * (prime as f64).ln())
+            .sum();
+        (logarithm + self.pi.to_f64() * std::f64::consts::PI.ln()).exp()
+    }
+
+    fn value_by_parts(&self) -> f64 {
         let split = self.split();
         let mut value = split.numerator.to_f64() / split.denominator.to_f64();
         for (radicand, root) in split.numerator_roots {
@@ -457,6 +476,18 @@ mod tests {
         let tiny = Scale::power_of_ten(-300).expect("1e-300");
         assert!((tiny.to_f64() / 1e-300 - 1.0).abs() < 1e-12);
         assert!(tiny.to_string().starts_with("1/"));
+    }
+
+    #[test]
+    fn factors_with_huge_parts_keep_their_magnitude() {
+        // 2^1200 / 3^757 is about 1.136 (1200 ln 2 - 757 ln 3 = 0.127), though both
+        // parts overflow f64 on their own.
+        let two = ratio(2, 1).pow(Rational::integer(1200)).expect("2^1200");
+        let three = ratio(3, 1).pow(Rational::integer(757)).expect("3^757");
+        let quotient = two.div(&three).expect("quotient");
+        let expected = (1200.0 * 2f64.ln() - 757.0 * 3f64.ln()).exp();
+        assert!((quotient.to_f64() / expected - 1.0).abs() < 1e-9);
+        assert_eq!(two.to_f64(), f64::INFINITY);
     }
 
     #[test]

@@ -476,7 +476,8 @@ mod tests {
 
     #[test]
     fn trade_and_accepted_factors_match_nist_sp811() {
-        // NIST SP 811 (2008) Appendix B.8, exact entries (printed bold there).
+        // NIST SP 811 (2008) Appendix B.8, exact entries (printed bold there); yd = 3 ft,
+        // gauss and bar from the same table (from memory), G = 1e-4 T per the design notes.
         assert_unit("ft", "0.3048", false, "m");
         assert_unit("in", "0.0254", false, "m");
         assert_unit("yd", "0.9144", false, "m");
@@ -488,15 +489,20 @@ mod tests {
         assert_unit("gn", "9.80665", false, "m s^-2");
         assert_unit("G", "0.0001", false, "kg s^-2 A^-1");
         assert_unit("bar", "100000", false, "m^-1 kg s^-2");
-        // NIST SP 811 B.8 prints the knot as 5.144444 E-01 (rounded); exact is 1852/3600.
+        // NIST SP 811 B.8: millibar = 1.0 E+02 Pa (from memory); hPa by the SI prefix rule.
+        assert_unit("mbar", "100", false, "m^-1 kg s^-2");
+        assert_unit("hPa", "100", false, "m^-1 kg s^-2");
+        // NIST SP 811 B.8 prints the knot as 5.144444 E-01 (rounded); exact is 1852/3600
+        // (nmi/h, both exact in the same table).
         assert_unit("kn", "1852/3600", false, "m s^-1");
-        // NIST SP 811 B.8 prints psi as 6.894757 E+03 (rounded); exact is lbf/in^2.
+        // NIST SP 811 B.8 prints psi as 6.894757 E+03 Pa (rounded, from memory); exact is
+        // lbf/in^2 from the exact lbf and in entries.
         assert_unit("psi", "4.4482216152605/0.00064516", false, "m^-1 kg s^-2");
         assert!((unit("psi").to_si() / 6.894757e3 - 1.0).abs() < 1e-7);
-        // NIST SP 811 B.8: revolution per minute = 1.047198 E-01 rad/s (rounded).
+        // NIST SP 811 B.8: revolution per minute = 1.047198 E-01 rad/s (rounded, from memory).
         assert_unit("rpm", "2/60", true, "s^-1 rad");
         assert!((unit("rpm").to_si() / 1.047198e-1 - 1.0).abs() < 1e-6);
-        // NIST SP 811 B.9 (angle): revolution = 2 pi rad (common practice; 6.283185 rad).
+        // Revolution = 2 pi rad: common practice, no source.
         assert_unit("rev", "2", true, "rad");
     }
 
@@ -512,9 +518,6 @@ mod tests {
         assert_unit("arcsec", "1/648000", true, "rad");
         assert_unit("L", "0.001", false, "m^3");
         assert_unit("t", "1000", false, "kg");
-        // BIPM SI Brochure 9th ed., Table 8 footnote: 1 bar = 100 kPa; hPa and mbar.
-        assert_unit("mbar", "100", false, "m^-1 kg s^-2");
-        assert_unit("hPa", "100", false, "m^-1 kg s^-2");
     }
 
     #[test]

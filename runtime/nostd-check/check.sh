@@ -7,9 +7,12 @@ set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
 root="$(cd "$here/../.." && pwd)"
 export CARGO_TARGET_DIR="$root/target/nostd-check"
-export RUSTFLAGS="-C link-arg=-nostartfiles -C link-arg=-nostdlib -C link-arg=-static"
 
-cargo build --quiet --release --manifest-path "$here/Cargo.toml"
+# The link arguments go to the final binary only (RUSTFLAGS would also reach build
+# scripts, which need the C runtime).
+cargo rustc --quiet --release --manifest-path "$here/Cargo.toml" -- \
+    -C relocation-model=static -C link-arg=-no-pie \
+    -C link-arg=-nostartfiles -C link-arg=-nostdlib -C link-arg=-static
 binary="$CARGO_TARGET_DIR/release/reckon-runtime-nostd-check"
 
 if [[ "$(uname -s)-$(uname -m)" == "Linux-x86_64" ]]; then

@@ -26,3 +26,14 @@ if [[ "$(uname -s)-$(uname -m)" == "Linux-x86_64" ]]; then
 else
     echo "nostd-check: linked without std (not run on $(uname -s)-$(uname -m))"
 fi
+
+# On a microcontroller target there is no std to fall back on at all. Compile the same
+# program to an object file there (linking would need a board's memory layout) when the
+# target is installed.
+firmware_target="thumbv7em-none-eabihf"
+if rustup target list --installed 2>/dev/null | grep -qx "$firmware_target"; then
+    cargo rustc --quiet --release --target "$firmware_target" --manifest-path "$here/Cargo.toml" -- --emit=obj
+    echo "nostd-check: compiled for $firmware_target"
+else
+    echo "nostd-check: $firmware_target not installed, firmware compile skipped"
+fi

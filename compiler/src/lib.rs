@@ -8,4 +8,5 @@
 
 pub mod diag;
 pub mod model;
+pub mod syntax;
 pub mod units;

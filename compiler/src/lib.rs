@@ -6,6 +6,7 @@
 //! Stages, in pipeline order: [`syntax`] (text to AST), [`check`] (AST to the checked
 //! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
 
+pub mod check;
 pub mod diag;
 pub mod model;
 pub mod syntax;

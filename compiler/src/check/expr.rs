@@ -351,7 +351,7 @@ impl Checker {
                 "this exponent is not a constant"
             };
             return Err(self.report(
-                Diagnostic::new(codes::BAD_EXPONENT, exponent.span, format!("{what}, so `{}`^ it has no dimension", base.dimension))
+                Diagnostic::new(codes::BAD_EXPONENT, exponent.span, format!("{what}, so this power of a value in {} has no fixed dimension", base.dimension))
                     .with_secondary(base.span, format!("this is {}", base.dimension))
                     .with_hint("a base with a unit needs a constant rational exponent such as `2`, `-1` or `0.5`"),
             ));

@@ -273,11 +273,12 @@ impl Checker {
         let states: Option<Vec<StateVar>> = states.into_iter().collect();
         let inputs: Option<Vec<InputVar>> = inputs.into_iter().collect();
         let sensors: Option<Vec<Sensor>> = sensors.into_iter().collect();
-        if let (Some(states), Some(motion), Some(sensors)) = (&states, &motion, &sensors) {
-            self.observability(states, motion, sensors);
-        }
         if self.diagnostics.iter().any(Diagnostic::is_error) {
             return None;
+        }
+        // Only a sound model is worth the structural warning.
+        if let (Some(states), Some(motion), Some(sensors)) = (&states, &motion, &sensors) {
+            self.observability(states, motion, sensors);
         }
         Some(Model {
             name: model_decl?.name.name.clone(),
@@ -516,6 +517,7 @@ impl Checker {
                             .with_hint(format!("write the next value, e.g. `{name} = {name} + rate * dt`, or use `motion continuous`")),
                     );
                     failed = true;
+                    continue;
                 }
                 (MotionKind::Continuous, None) => {
                     self.report(
@@ -532,6 +534,7 @@ impl Checker {
                         )),
                     );
                     failed = true;
+                    continue;
                 }
                 _ => {}
             }
@@ -844,17 +847,12 @@ impl Checker {
         }
 
         let gate = self.gate(block);
-        let noise = if failed || components.len() != declared {
-            // Noise statements still get their own checks where they can.
-            self.sensor_noise(block, &[]);
-            None
-        } else {
-            let comps: Vec<(&ast::ComponentDecl, Dimension)> = components
-                .iter()
-                .map(|(c, d)| (*d, c.unit.dimension))
-                .collect();
-            self.sensor_noise(block, &comps)
-        };
+        let complete = !failed && components.len() == declared;
+        let comps: Vec<(&ast::ComponentDecl, Dimension)> = components
+            .iter()
+            .map(|(c, d)| (*d, c.unit.dimension))
+            .collect();
+        let noise = self.sensor_noise(block, &comps, complete);
         Some(Sensor {
             name: sensor_name.clone(),
             doc: block.doc.as_ref().map(|d| d.text.clone()),
@@ -919,12 +917,14 @@ impl Checker {
         }
     }
 
-    /// Reading noise. With `components` empty (the components failed), only the
-    /// statements' own consistency is checked.
+    /// Reading noise for the lowered `components`. When some component failed
+    /// (`complete` false), the noise of the others is still checked, but nothing is
+    /// reported missing and no noise is returned.
     fn sensor_noise(
         &mut self,
         block: &ast::SensorBlock,
         components: &[(&ast::ComponentDecl, Dimension)],
+        complete: bool,
     ) -> Option<SensorNoise> {
         let mut shared: Option<&ast::SharedNoise> = None;
         let mut own: HashMap<&str, &ast::NoiseStmt> = HashMap::new();
@@ -1006,13 +1006,16 @@ impl Checker {
                 failed = true;
             }
         }
-        if failed || components.is_empty() {
+        if failed {
             return None;
         }
-        if let Some(ast::SharedNoise {
-            kind: ast::SharedNoiseKind::Covariance(cov),
-            ..
-        }) = shared
+        if let (
+            true,
+            Some(ast::SharedNoise {
+                kind: ast::SharedNoiseKind::Covariance(cov),
+                ..
+            }),
+        ) = (complete, shared)
         {
             let comps: Vec<(String, Dimension)> = components
                 .iter()
@@ -1035,6 +1038,8 @@ impl Checker {
                         ..
                     }),
                 ) => dist,
+                (None, Some(_)) => continue,
+                _ if !complete => continue,
                 _ => {
                     self.report(
                         Diagnostic::new(
@@ -1061,7 +1066,7 @@ impl Checker {
                 _ => failed = true,
             }
         }
-        (!failed).then_some(SensorNoise::PerComponent(dists))
+        (complete && !failed).then_some(SensorNoise::PerComponent(dists))
     }
 
     /// Warns about states no reading depends on, directly or through the motion of

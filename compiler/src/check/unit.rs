@@ -23,15 +23,17 @@ impl Checker {
         };
         match &unit.kind {
             UnitKind::Symbol(symbol) => units::lookup(symbol).map_err(|unknown| {
-                let mut d = Diagnostic::new(codes::UNKNOWN_UNIT, unit.span, format!("unknown unit `{symbol}`"));
-                if let Some(hint) = did_you_mean(&unknown.suggestions) {
-                    d = d.with_hint(hint);
-                }
-                if self.is_declared(symbol) {
-                    d = d.with_note(format!(
-                        "`{symbol}` is a name, not a unit: the unit after a number takes in `/`, `^` and `·`, so write `(2 m) / {symbol}` or `2 m * (1 / {symbol})`"
-                    ));
-                }
+                let d = Diagnostic::new(codes::UNKNOWN_UNIT, unit.span, format!("unknown unit `{symbol}`"));
+                let d = if self.is_declared(symbol) {
+                    d.with_label_message("a name, read here as part of a unit").with_hint(format!(
+                        "the unit after a number takes in `/`, `^` and `·`: write `(2 m) / {symbol}` or `2 m * (1 / {symbol})`"
+                    ))
+                } else {
+                    match did_you_mean(&unknown.suggestions) {
+                        Some(hint) => d.with_hint(hint),
+                        None => d.with_hint("units are SI symbols with prefixes (`km`, `ms`), accepted units (`h`, `deg`) and trade units (`ft`, `kn`, `mbar`)"),
+                    }
+                };
                 self.report(d)
             }),
             UnitKind::One => Ok(Unit::ONE),

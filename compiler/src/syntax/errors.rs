@@ -5,6 +5,7 @@
 use pest::error::{ErrorVariant, InputLocation};
 
 use super::parser::Rule;
+use super::scan::ITEM_KEYWORDS;
 use crate::diag::{codes, Diagnostic, Span};
 
 const ITEM_WORDS: &str =
@@ -171,7 +172,15 @@ pub(super) fn syntax_error(
             reported
         }
     };
-    let at = (offset + relative).min(text.len());
+    let mut at = (offset + relative).min(text.len());
+    // A reserved word where a name belongs fails inside the word's own rule; point
+    // at the whole word rather than at the blank after it.
+    let word_start = text[..at]
+        .rfind(|c: char| !(c.is_ascii_alphanumeric() || c == '_'))
+        .map_or(0, |n| n + 1);
+    if words.contains(&"a name") && RESERVED.contains(&&text[word_start..at]) {
+        at = word_start;
+    }
     let (found, found_len) = found_at(text, at);
     let span = Span::new(at, at + found_len);
 
@@ -192,7 +201,10 @@ pub(super) fn syntax_error(
     )
     .with_label_message(format!("expected {expected}"));
     let word = found.trim_matches('`');
-    if RESERVED.contains(&word) && words.contains(&"a name") {
+    if ITEM_KEYWORDS.contains(&word) && words.contains(&"`}`") {
+        diagnostic =
+            diagnostic.with_hint(format!("a `}}` may be missing: `{word}` starts a new item"));
+    } else if RESERVED.contains(&word) && words.contains(&"a name") {
         diagnostic =
             diagnostic.with_hint(format!("`{word}` is a reserved word; choose another name"));
     }

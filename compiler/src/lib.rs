@@ -7,9 +7,11 @@
 //! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
 
 pub mod back;
+pub mod check;
 pub mod diag;
 pub mod model;
 pub mod options;
 pub mod project;
 pub mod stats;
+pub mod syntax;
 pub mod units;

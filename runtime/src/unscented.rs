@@ -284,7 +284,9 @@ where
     }
 
     /// Unscented Kalman correction with reading `z`; `gate` as in
-    /// [`KalmanFilter::correct`]. The covariance update is `P - K S K^T`.
+    /// [`KalmanFilter::correct`]. The covariance update is `P - K S K^T` (the model's
+    /// [`ReadingModel::update_form`] and Jacobian are not used); a result with a negative
+    /// variance is rejected as [`CorrectError::NotPositiveDefinite`].
     pub fn correct_unscented<M: Dim, Model: ReadingModel<T, N, M>>(
         &mut self,
         model: &Model,
@@ -365,6 +367,15 @@ where
         );
         if !all_finite(&mean) || !all_finite(&covariance) {
             return Err(CorrectError::NonFiniteResult);
+        }
+        // Unlike the Joseph form, the subtraction can leave a negative variance when the
+        // weights are inconsistent or the nonlinearity is severe.
+        if covariance
+            .diagonal()
+            .iter()
+            .any(|&variance| variance < T::zero())
+        {
+            return Err(CorrectError::NotPositiveDefinite);
         }
         Ok((
             Moments { mean, covariance },
@@ -625,5 +636,31 @@ mod tests {
             .unwrap_err();
         assert_eq!(error, CorrectError::NonFiniteResult);
         assert!(same_bits(&filter, &before));
+    }
+
+    #[test]
+    fn negative_variance_after_unscented_correction_is_rejected() {
+        // Hand-made weights whose covariance and cross-covariance scales disagree
+        // (2 Wi spread^2 = 2 instead of 1): for P = 1, H = 1 the update gives
+        // 1 - 4 / (2 + R) < 0.
+        let weights = UnscentedWeights {
+            dimension: 1,
+            mean_center: 0.0,
+            covariance_center: 0.0,
+            outer: 1.0,
+            spread: 1.0,
+        };
+        let model = crate::test_models::RandomConstant { q: 0.0, r: 0.01 };
+        let mut filter = KalmanFilter::new(Vector1::new(0.0_f64), Matrix1::new(1.0)).unwrap();
+        let before = filter.clone();
+        assert_eq!(
+            filter.correct_unscented(&model, &Vector1::new(0.5), &(), None, &weights),
+            Err(CorrectError::NotPositiveDefinite)
+        );
+        assert_eq!(filter.state()[0].to_bits(), before.state()[0].to_bits());
+        assert_eq!(
+            filter.covariance()[0].to_bits(),
+            before.covariance()[0].to_bits()
+        );
     }
 }

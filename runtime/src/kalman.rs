@@ -523,13 +523,13 @@ where
 
 #[cfg(test)]
 mod tests {
-    extern crate std;
 
     use super::*;
     use crate::test_models::{
-        ConstantVelocity, LinearReading, RandomConstant, RangeBearing, Unicycle,
+        assert_untouched, unicycle_filter, ConstantVelocity, LinearReading, RandomConstant,
+        RangeBearing, Unicycle,
     };
-    use nalgebra::{Matrix1, Matrix2, Matrix3, Vector1, Vector2, Vector3, U3};
+    use nalgebra::{Matrix1, Matrix2, Matrix3, Vector1, Vector2, Vector3};
 
     fn no_input() -> OVector<f64, nalgebra::Const<0>> {
         OVector::<f64, nalgebra::Const<0>>::zeros()
@@ -624,32 +624,6 @@ mod tests {
         let (mean, variance) = fuse(-1.0, 2.0, 5.0, 2.0);
         assert!((mean - 2.0).abs() < 1e-12);
         assert!((variance - 1.0).abs() < 1e-12);
-    }
-
-    fn unicycle_filter() -> KalmanFilter<f64, U3> {
-        let p = Matrix3::new(0.5, 0.1, 0.0, 0.1, 0.4, 0.05, 0.0, 0.05, 0.2);
-        let mut filter = KalmanFilter::new(Vector3::new(1.0, -2.0, 3.0), p).unwrap();
-        filter
-            .set_angle_states(Vector3::new(false, false, true))
-            .unwrap();
-        filter
-    }
-
-    fn assert_untouched(filter: &KalmanFilter<f64, U3>, before: &KalmanFilter<f64, U3>) {
-        let bits = |values: &[f64]| {
-            values
-                .iter()
-                .map(|v| v.to_bits())
-                .collect::<std::vec::Vec<_>>()
-        };
-        assert_eq!(
-            bits(filter.state().as_slice()),
-            bits(before.state().as_slice())
-        );
-        assert_eq!(
-            bits(filter.covariance().as_slice()),
-            bits(before.covariance().as_slice())
-        );
     }
 
     #[test]

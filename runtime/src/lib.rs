@@ -3,3 +3,4 @@
 #![no_std]
 
 pub mod grid;
+pub mod particle;

@@ -50,7 +50,7 @@ pub(crate) use model::{checked_ln_likelihood, validate_reading, validate_step};
 pub use model::{
     CorrectError, Likelihood, Motion, PredictError, ReadingPrediction, ResidualLikelihood,
 };
-pub(crate) use noise::{lit, minus_infinity, to_f64};
+pub(crate) use noise::{lit, minus_infinity};
 pub use noise::{Noise, NoiseError};
 pub use one::Grid1;
 pub use two::Grid2;

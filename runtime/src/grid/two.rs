@@ -163,3 +163,189 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
         self.plane.probability_in(x, y)
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use core::cell::Cell;
+
+    use nalgebra::SVector;
+
+    use super::*;
+    use crate::grid::test_models::{Direct, Drift, Mapped, ScalarKalman};
+    use crate::grid::ResidualLikelihood;
+
+    const H: f64 = 0.1;
+    type Plane2 = Grid2<f64, 120, 100>;
+
+    fn normal(std_dev: f64) -> Noise<f64> {
+        Noise::Normal { std_dev }
+    }
+
+    fn axes() -> (Axis<f64, 120>, Axis<f64, 100>) {
+        (
+            Axis::new(-6.0, H).expect("valid x axis"),
+            Axis::new(-5.0, H).expect("valid y axis"),
+        )
+    }
+
+    fn blob(mean: (f64, f64), spread: (f64, f64)) -> Plane2 {
+        let (x, y) = axes();
+        Grid2::from_density(
+            x,
+            y,
+            Vector2::new(mean.0, mean.1),
+            [normal(spread.0), normal(spread.1)],
+            GridOptions { skip_below: 0.0 },
+        )
+        .expect("valid prior")
+    }
+
+    #[test]
+    fn independent_axes_match_two_kalman_filters() {
+        // Closed form: one scalar Kalman recursion per axis (common practice, no
+        // source); tolerance as in the 1-D comparison: each discretisation adds about
+        // h^2/12 of variance per axis (Sheppard's correction, from memory), carried into
+        // the mean through |innovation| R/(P+R)^2.
+        let mut grid = blob((0.0, 0.0), (1.0, 0.6));
+        let mut kalman = [
+            ScalarKalman {
+                mean: 0.0,
+                variance: 1.0,
+            },
+            ScalarKalman {
+                mean: 0.0,
+                variance: 0.36,
+            },
+        ];
+        let motion = Drift {
+            noise: normal(0.3),
+            as_translation: true,
+        };
+        let reading = ResidualLikelihood(Direct { noise: normal(0.5) });
+        let velocity = Vector2::new(0.5, -0.3);
+        let sheppard = H * H / 12.0;
+        let mut variance_tolerance = sheppard;
+        let mut mean_tolerance = [0.0; 2];
+        for z in [
+            Vector2::new(0.4, -0.2),
+            Vector2::new(1.3, -0.9),
+            Vector2::new(1.2, -0.8),
+        ] {
+            grid.predict(&motion, &velocity, 1.0).expect("on grid");
+            variance_tolerance += sheppard;
+            grid.correct(&reading, &z).expect("consistent reading");
+            for (axis, filter) in kalman.iter_mut().enumerate() {
+                filter.predict(velocity[axis], 0.09);
+                let (factor, innovation) = filter.correct(z[axis], 0.25);
+                mean_tolerance[axis] += innovation.abs() * factor * variance_tolerance;
+            }
+        }
+        let (mean, covariance) = (grid.mean(), grid.covariance());
+        for (axis, filter) in kalman.iter().enumerate() {
+            assert!((mean[axis] - filter.mean).abs() <= mean_tolerance[axis] + 1e-12);
+            assert!((covariance[(axis, axis)] - filter.variance).abs() <= variance_tolerance);
+        }
+        assert!(covariance[(0, 1)].abs() < 1e-12);
+        assert_eq!(covariance[(0, 1)], covariance[(1, 0)]);
+    }
+
+    #[test]
+    fn pushed_mass_keeps_the_mean_of_the_moved_centres() {
+        // Bilinear splitting preserves the first moment: after a rotation by 0.4 rad the
+        // mean is the mass-weighted mean of the rotated centres.
+        let mut grid = blob((1.5, 0.5), (0.5, 0.3));
+        let (cos, sin) = (0.4_f64.cos(), 0.4_f64.sin());
+        let rotate =
+            |p: &SVector<f64, 2>| Vector2::new(cos * p[0] - sin * p[1], sin * p[0] + cos * p[1]);
+        let (x, y) = axes();
+        let mut expected = Vector2::zeros();
+        for iy in 0..100 {
+            for ix in 0..120 {
+                expected +=
+                    rotate(&Vector2::new(x.centre(ix), y.centre(iy))) * grid.mass_at(ix, iy);
+            }
+        }
+        let motion = Mapped {
+            map: rotate,
+            noise: normal(0.1),
+            calls: Cell::new(0),
+        };
+        grid.predict(&motion, &SVector::zeros(), 1.0)
+            .expect("on grid");
+        assert!((grid.mean() - expected).norm() < 1e-9);
+        // The rotated belief is correlated: the x spread now leans toward y.
+        assert!(grid.covariance()[(0, 1)] > 0.01);
+    }
+
+    #[test]
+    fn two_blobs_give_two_modes_and_their_masses() {
+        let (x, y) = axes();
+        let left = blob((-3.0, -2.0), (0.4, 0.4));
+        let right = blob((3.0, 2.0), (0.4, 0.4));
+        let mut masses = [[0.0; 120]; 100];
+        for (iy, row) in masses.iter_mut().enumerate() {
+            for (ix, cell) in row.iter_mut().enumerate() {
+                *cell = 0.7 * left.mass_at(ix, iy) + 0.3 * right.mass_at(ix, iy);
+            }
+        }
+        let grid = Grid2::from_masses(x, y, masses, GridOptions::default()).expect("valid");
+        let empty = Mode {
+            cell: [0, 0],
+            centre: Vector2::zeros(),
+            mass: 0.0,
+        };
+        let mut modes = [empty; 4];
+        assert_eq!(grid.modes(0.2, &mut modes), 2);
+        assert!((modes[0].centre - Vector2::new(-3.0, -2.0)).norm() < H);
+        assert!((modes[1].centre - Vector2::new(3.0, 2.0)).norm() < H);
+        assert_eq!(grid.modes(0.5, &mut modes), 1);
+        // The left blob's tails past the rectangle sit 5 standard deviations out
+        // (upper tail 2.9e-7, standard normal table).
+        let left_mass = grid.probability_in((-6.0, 0.0), (-5.0, 0.0));
+        assert!((left_mass - 0.7).abs() < 1e-6);
+        assert_eq!(grid.masses()[35 * 120 + 20], grid.mass_at(20, 35));
+    }
+
+    #[test]
+    fn impossible_reading_keeps_the_belief_bit_identical() {
+        let mut grid = blob((0.0, 0.0), (0.5, 0.5));
+        let before: [u64; 12_000] = core::array::from_fn(|i| grid.masses()[i].to_bits());
+        let support = grid.support();
+        let reading = ResidualLikelihood(Direct {
+            noise: Noise::Triangle { half_width: 1.0 },
+        });
+        assert_eq!(
+            grid.correct(&reading, &Vector2::new(0.0, 40.0)),
+            Err(CorrectError::ZeroPosterior)
+        );
+        let after: [u64; 12_000] = core::array::from_fn(|i| grid.masses()[i].to_bits());
+        assert_eq!(before, after);
+        assert_eq!(grid.support(), support);
+    }
+
+    #[test]
+    fn support_box_follows_a_narrow_belief() {
+        let (x, y) = axes();
+        let mut grid = Grid2::<f64, 120, 100>::from_density(
+            x,
+            y,
+            Vector2::new(2.0, 1.0),
+            [normal(0.2), normal(0.2)],
+            GridOptions::default(),
+        )
+        .expect("valid prior");
+        let ((x_first, x_last), (y_first, y_last)) = grid.support();
+        assert!(x_last - x_first < 30 && y_last - y_first < 30);
+        let motion = Mapped {
+            map: |p: &SVector<f64, 2>| p + Vector2::new(-1.0, 0.5),
+            noise: normal(0.05),
+            calls: Cell::new(0),
+        };
+        grid.predict(&motion, &SVector::zeros(), 1.0)
+            .expect("on grid");
+        assert!(motion.calls.get() <= 30 * 30);
+        assert!((grid.mean() - Vector2::new(1.0, 1.5)).norm() < 1e-3);
+        let total: f64 = grid.masses().iter().sum();
+        assert!((total - 1.0).abs() < 1e-12);
+    }
+}

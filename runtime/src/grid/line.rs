@@ -74,6 +74,15 @@ impl<T: RealField + Copy, const N: usize> Axis<T, N> {
         }
     }
 
+    /// The mass of each cell under the density `shape` centred at `mean`, integrated
+    /// over the cell.
+    pub(crate) fn cell_masses(&self, mean: T, shape: &Noise<T>) -> [T; N] {
+        core::array::from_fn(|index| {
+            let start = self.lo + self.width * lit::<T>(index as f64) - mean;
+            shape.mass_between(start, start + self.width)
+        })
+    }
+
     /// `x` in units of cells, measured from the centre of cell 0.
     pub(crate) fn position_in_cells(&self, x: T) -> T {
         (x - self.lo) / self.width - lit(0.5)
@@ -228,7 +237,7 @@ impl<T: RealField + Copy> Split<T> {
     pub fn shares(&self, count: usize) -> impl Iterator<Item = (usize, T)> {
         [
             (self.lower, T::one() - self.fraction),
-            (self.lower + 1, self.fraction),
+            (self.lower.saturating_add(1), self.fraction),
         ]
         .into_iter()
         .filter(move |&(cell, share)| cell >= 0 && (cell as usize) < count && share > T::zero())

@@ -56,10 +56,7 @@ impl<T: RealField + Copy, const N: usize> Grid1<T, N> {
             return Err(GridError::NonFiniteMean);
         }
         shape.validate()?;
-        let row = unit_row();
-        let [masses] = Plane::density_masses(&axis, &row, (mean, shape), (T::zero(), shape));
-        // The row's own factor is the shape's mass over [-0.5, 0.5), which cancels in
-        // the normalisation.
+        let masses = axis.cell_masses(mean, &shape);
         Self::from_masses(axis, masses, options)
     }
 

@@ -11,7 +11,7 @@ use nalgebra::RealField;
 
 use super::line::{prune_over, scale_over, sum_over, Axis, LineKernel, Span, Split};
 use super::model::{checked_ln_likelihood, CorrectError, PredictError};
-use super::noise::{minus_infinity, Noise};
+use super::noise::minus_infinity;
 use super::{GridCorrection, GridError, GridOptions, GridPrediction};
 
 /// The rows and columns that hold all of the belief's mass.
@@ -129,28 +129,6 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Plane<T, NX, NY> {
             support,
             skip_below,
         })
-    }
-
-    /// The masses of a density that is the product of independent per-axis shapes
-    /// centred at `(mean_x, mean_y)`, each integrated over the cells.
-    pub fn density_masses(
-        x: &Axis<T, NX>,
-        y: &Axis<T, NY>,
-        (mean_x, shape_x): (T, Noise<T>),
-        (mean_y, shape_y): (T, Noise<T>),
-    ) -> [[T; NX]; NY] {
-        let along = |lo: T, width: T, index: usize, mean: T, shape: &Noise<T>| {
-            let start = lo + width * nalgebra::convert::<f64, T>(index as f64) - mean;
-            shape.mass_between(start, start + width)
-        };
-        let mut mass = [[T::zero(); NX]; NY];
-        for (row, cells) in mass.iter_mut().enumerate() {
-            let row_mass = along(y.lo(), y.width(), row, mean_y, &shape_y);
-            for (col, cell) in cells.iter_mut().enumerate() {
-                *cell = row_mass * along(x.lo(), x.width(), col, mean_x, &shape_x);
-            }
-        }
-        mass
     }
 
     /// Moves every cell's mass to `map(centre)` (split between the nearest centres, see

@@ -56,7 +56,9 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
         }
         shape[0].validate()?;
         shape[1].validate()?;
-        let masses = Plane::density_masses(&x, &y, (mean[0], shape[0]), (mean[1], shape[1]));
+        let along_x = x.cell_masses(mean[0], &shape[0]);
+        let along_y = y.cell_masses(mean[1], &shape[1]);
+        let masses = along_y.map(|row_mass| along_x.map(|col_mass| row_mass * col_mass));
         Self::from_masses(x, y, masses, options)
     }
 

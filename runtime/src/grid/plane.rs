@@ -160,7 +160,8 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Plane<T, NX, NY> {
             }
         }
         let moved_support = moved_support.ok_or(PredictError::AllMassLeftGrid)?;
-        self.spread(&moved, moved_support, kernel_x, kernel_y)
+        let (spread, support, total) = self.spread(&moved, moved_support, kernel_x, kernel_y)?;
+        Ok(self.commit_prediction(spread, support, total))
     }
 
     /// Spreads the belief through the noise kernels (which carry the translation).
@@ -169,20 +170,34 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Plane<T, NX, NY> {
         kernel_x: &LineKernel<T, NX>,
         kernel_y: Option<&LineKernel<T, NY>>,
     ) -> Result<GridPrediction<T>, PredictError> {
-        let source = self.mass;
-        self.spread(&source, self.support, kernel_x, kernel_y)
+        let (spread, support, total) = self.spread(&self.mass, self.support, kernel_x, kernel_y)?;
+        Ok(self.commit_prediction(spread, support, total))
+    }
+
+    fn commit_prediction(
+        &mut self,
+        mass: [[T; NX]; NY],
+        support: Support,
+        total: T,
+    ) -> GridPrediction<T> {
+        self.mass = mass;
+        self.support = support;
+        GridPrediction {
+            mass_lost: (T::one() - total).max(T::zero()),
+        }
     }
 
     /// Spreads `source` along the rows through `kernel_x`, then along the columns
     /// through `kernel_y` (the noise components are independent, so the 2-D kernel is
-    /// separable), settles the result and commits it.
+    /// separable) and settles the result; returns it with its support and the mass that
+    /// stayed on the grid.
     fn spread(
-        &mut self,
+        &self,
         source: &[[T; NX]; NY],
         support: Support,
         kernel_x: &LineKernel<T, NX>,
         kernel_y: Option<&LineKernel<T, NY>>,
-    ) -> Result<GridPrediction<T>, PredictError> {
+    ) -> Result<([[T; NX]; NY], Support, T), PredictError> {
         let mut along_rows = [[T::zero(); NX]; NY];
         let mut cols: Option<Span> = None;
         for row in support.rows.indices() {
@@ -218,11 +233,7 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Plane<T, NX, NY> {
         };
         let (settled, total) = settle(&mut spread, spread_support, self.skip_below)
             .ok_or(PredictError::AllMassLeftGrid)?;
-        self.mass = spread;
-        self.support = settled;
-        Ok(GridPrediction {
-            mass_lost: (T::one() - total).max(T::zero()),
-        })
+        Ok((spread, settled, total))
     }
 
     /// Multiplies the belief by `exp(ln_likelihood(centre))` and normalises. The product

@@ -37,6 +37,18 @@ pub trait Likelihood<T: RealField + Copy, const D: usize, const M: usize> {
     fn ln_likelihood(&self, x: &SVector<T, D>, z: &SVector<T, M>) -> T;
 }
 
+/// Any function `(x, z) -> ln p(z | x)` is a likelihood (the simulator passes closures
+/// over its interpreter this way).
+impl<T, F, const D: usize, const M: usize> Likelihood<T, D, M> for F
+where
+    T: RealField + Copy,
+    F: Fn(&SVector<T, D>, &SVector<T, M>) -> T,
+{
+    fn ln_likelihood(&self, x: &SVector<T, D>, z: &SVector<T, M>) -> T {
+        self(x, z)
+    }
+}
+
 /// A reading model `z = h(x) + v`, the components of `v` independent and each
 /// distributed as one [`Noise`]. Wrap it in [`ResidualLikelihood`] to correct with it.
 pub trait ReadingPrediction<T: RealField + Copy, const D: usize, const M: usize> {
@@ -171,6 +183,17 @@ mod tests {
         let z = Vector1::new(5.4);
         let expected = Noise::Normal { std_dev: 0.5 }.ln_pdf(0.4);
         assert!((likelihood.ln_likelihood(&x, &z) - expected).abs() < 1e-12);
+    }
+
+    #[test]
+    fn closures_are_likelihoods() {
+        let bearing = |x: &SVector<f64, 2>, z: &Vector1<f64>| {
+            Noise::Normal { std_dev: 0.1 }.ln_pdf(z[0] - x[1].atan2(x[0]))
+        };
+        let x = SVector::<f64, 2>::new(1.0, 1.0);
+        let expected = Noise::Normal { std_dev: 0.1 }.ln_pdf(0.0);
+        let z = Vector1::new(core::f64::consts::FRAC_PI_4);
+        assert!((bearing.ln_likelihood(&x, &z) - expected).abs() < 1e-12);
     }
 
     #[test]

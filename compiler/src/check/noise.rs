@@ -329,9 +329,9 @@ impl Checker {
         if failed {
             return Err(Reported);
         }
-        for i in 0..n {
-            for j in 0..i {
-                let (a, b) = (matrix[i][j], matrix[j][i]);
+        for (i, row) in matrix.iter().enumerate() {
+            for (j, &a) in row.iter().enumerate().take(i) {
+                let b = matrix[j][i];
                 if (a - b).abs() > 1e-9 * a.abs().max(b.abs()) {
                     return Err(self.report(
                         Diagnostic::new(

@@ -114,6 +114,8 @@ struct ConstInfo {
 struct Checker {
     diagnostics: Vec<Diagnostic>,
     globals: HashMap<String, Global>,
+    /// Where each global name was first declared.
+    declared_at: HashMap<String, Span>,
     states: Vec<VarInfo>,
     inputs: Vec<VarInfo>,
     constants: Vec<ConstInfo>,

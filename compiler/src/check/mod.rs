@@ -344,3 +344,116 @@ mod tests {
         assert_eq!(codes, ["E0206", "E0205"]);
     }
 }
+
+/// Random damage to real specs must give diagnostics, never a panic, and a model
+/// exactly when there is no error.
+#[cfg(test)]
+mod never_panics {
+    use proptest::prelude::*;
+
+    use super::*;
+    use crate::diag::render;
+
+    const DEMO: &str = include_str!("../../../specs/survey_launch.reckon");
+
+    const TOKENS: &[&str] = &[
+        "model",
+        "const",
+        "state",
+        "input",
+        "motion",
+        "continuous",
+        "discrete",
+        "process",
+        "sensor",
+        "initial",
+        "noise",
+        "gate",
+        "wrap",
+        "in",
+        "by",
+        "covariance",
+        "x",
+        "v",
+        "dt",
+        "pi",
+        "{",
+        "}",
+        "(",
+        ")",
+        "[",
+        "]",
+        ":",
+        "=",
+        "'",
+        "~",
+        ",",
+        ";",
+        "..",
+        "+",
+        "-",
+        "*",
+        "/",
+        "^",
+        "%",
+        "·",
+        "1",
+        "0",
+        "2.5",
+        "1e400",
+        "m",
+        "s",
+        "deg",
+        "Hz",
+        "m/s",
+        "sqrt",
+        "sin",
+        "atan2",
+        "normal",
+        "white",
+        "uniform",
+        "triangle",
+        "///",
+        "//",
+        "\n",
+        "µs",
+    ];
+
+    fn check_and_render(text: &str) -> Result<(), TestCaseError> {
+        let output = check_source(text);
+        prop_assert_eq!(output.model.is_some(), !output.has_errors());
+        let _ = render::human("fuzz.reckon", text, &output.diagnostics);
+        let _ = render::json_lines("fuzz.reckon", text, &output.diagnostics);
+        Ok(())
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 200, failure_persistence: None, ..ProptestConfig::default() })]
+
+        #[test]
+        fn damaged_demo_specs(cut in 0..DEMO.len(), len in 0usize..40, insert in prop::sample::select(TOKENS)) {
+            let mut start = cut;
+            while !DEMO.is_char_boundary(start) {
+                start -= 1;
+            }
+            let mut end = (start + len).min(DEMO.len());
+            while !DEMO.is_char_boundary(end) {
+                end += 1;
+            }
+            let damaged = format!("{}{insert}{}", &DEMO[..start], &DEMO[end..]);
+            check_and_render(&damaged)?;
+        }
+
+        #[test]
+        fn token_soup(tokens in prop::collection::vec(prop::sample::select(TOKENS), 0..80)) {
+            check_and_render(&tokens.join(" "))?;
+        }
+
+        #[test]
+        fn arbitrary_bytes(bytes in prop::collection::vec(any::<u8>(), 0..300)) {
+            let output = check_bytes(&bytes);
+            prop_assert_eq!(output.model.is_some(), !output.has_errors());
+            let _ = render::human("fuzz.reckon", &String::from_utf8_lossy(&bytes), &output.diagnostics);
+        }
+    }
+}

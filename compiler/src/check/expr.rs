@@ -215,7 +215,7 @@ impl Checker {
             }
             (_, Some(Global::State(i))) => match place {
                 Place::Constant => Err(not_constant(self, "a state")),
-                _ => match self.states[i].dimension {
+                _ => match self.states[i].dimension() {
                     Some(dimension) => Ok(Expr {
                         kind: ExprKind::State(i),
                         dimension,
@@ -232,7 +232,7 @@ impl Checker {
                         .with_label_message("an input")
                         .with_hint("a reading depends on the state, constants and the sensor's arguments; declare a value known when the reading arrives as an argument: `sensor name(value: unit)`"),
                 )),
-                _ => match self.inputs[i].dimension {
+                _ => match self.inputs[i].dimension() {
                     Some(dimension) => Ok(Expr {
                         kind: ExprKind::Input(i),
                         dimension,

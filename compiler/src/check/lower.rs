@@ -213,18 +213,14 @@ impl Checker {
         for (i, decl) in state_decls.iter().enumerate() {
             self.declare(&decl.name, Global::State(i));
             let unit = self.declared_unit(&decl.unit).ok();
-            self.states.push(VarInfo {
-                dimension: unit.as_ref().map(|u| u.dimension),
-            });
+            self.states.push(VarInfo { unit: unit.clone() });
             state_units.push(unit);
         }
         let mut input_units = Vec::new();
         for (i, decl) in input_decls.iter().enumerate() {
             self.declare(&decl.name, Global::Input(i));
             let unit = self.declared_unit(&decl.unit).ok();
-            self.inputs.push(VarInfo {
-                dimension: unit.as_ref().map(|u| u.dimension),
-            });
+            self.inputs.push(VarInfo { unit: unit.clone() });
             input_units.push(unit);
         }
         for (i, decl) in parts.constants.iter().enumerate() {
@@ -422,7 +418,7 @@ impl Checker {
                     dist,
                     &Subject {
                         what: &what,
-                        dimension: unit.dimension,
+                        unit: &unit,
                         white: WhiteRule::NotProcess,
                     },
                 )
@@ -552,7 +548,7 @@ impl Checker {
                 failed = true;
                 continue;
             };
-            let Some(state_dim) = self.states[state].dimension else {
+            let Some(state_dim) = self.states[state].dimension() else {
                 failed = true;
                 continue;
             };
@@ -606,7 +602,7 @@ impl Checker {
             .into_iter()
             .enumerate()
             .map(|(i, eq)| {
-                let dimension = self.states[i].dimension?;
+                let dimension = self.states[i].dimension()?;
                 Some(eq.unwrap_or_else(|| match kind {
                     MotionKind::Continuous => model_expr(
                         ExprKind::Number(0.0),
@@ -641,13 +637,13 @@ impl Checker {
             ) {
                 continue;
             }
-            let Some(dimension) = self.states[state].dimension else {
+            let Some(unit) = self.states[state].unit.clone() else {
                 continue;
             };
             let what = format!("state `{}`", stmt.target.name);
             let subject = Subject {
                 what: &what,
-                dimension,
+                unit: &unit,
                 white,
             };
             if let Ok(noise) = self.noise(&stmt.dist, &subject) {
@@ -688,13 +684,13 @@ impl Checker {
             ) {
                 continue;
             }
-            let Some(dimension) = self.states[state].dimension else {
+            let Some(unit) = self.states[state].unit.clone() else {
                 continue;
             };
             let what = format!("the initial belief of `{}`", stmt.target.name);
             let subject = Subject {
                 what: &what,
-                dimension,
+                unit: &unit,
                 white: WhiteRule::NotProcess,
             };
             if let Ok(Noise::Dist(d)) = self.noise(&stmt.dist, &subject) {
@@ -840,9 +836,9 @@ impl Checker {
 
         let gate = self.gate(block);
         let complete = !failed && components.len() == declared;
-        let comps: Vec<(&ast::ComponentDecl, Dimension)> = components
+        let comps: Vec<(&ast::ComponentDecl, DeclaredUnit)> = components
             .iter()
-            .map(|(c, d)| (*d, c.unit.dimension))
+            .map(|(c, d)| (*d, c.unit.clone()))
             .collect();
         let noise = self.sensor_noise(block, &comps, complete);
         Some(Sensor {
@@ -915,7 +911,7 @@ impl Checker {
     fn sensor_noise(
         &mut self,
         block: &ast::SensorBlock,
-        components: &[(&ast::ComponentDecl, Dimension)],
+        components: &[(&ast::ComponentDecl, DeclaredUnit)],
         complete: bool,
     ) -> Option<SensorNoise> {
         let mut shared: Option<&ast::SharedNoise> = None;
@@ -1011,7 +1007,7 @@ impl Checker {
         {
             let comps: Vec<(String, Dimension)> = components
                 .iter()
-                .map(|(c, d)| (c.name.name.clone(), *d))
+                .map(|(c, u)| (c.name.name.clone(), u.dimension))
                 .collect();
             return self
                 .covariance(cov, &comps)
@@ -1019,7 +1015,7 @@ impl Checker {
                 .map(SensorNoise::Covariance);
         }
         let mut dists = Vec::new();
-        for (decl, dimension) in components {
+        for (decl, unit) in components {
             let name = decl.name.name.as_str();
             let dist = match (own.get(name), shared) {
                 (Some(stmt), _) => &stmt.dist,
@@ -1050,7 +1046,7 @@ impl Checker {
             let what = format!("reading `{name}`");
             let subject = Subject {
                 what: &what,
-                dimension: *dimension,
+                unit,
                 white: WhiteRule::NotProcess,
             };
             match self.noise(dist, &subject) {

@@ -15,7 +15,7 @@ mod unit;
 use std::collections::HashMap;
 
 use crate::diag::{codes, Diagnostic, Span};
-use crate::model::Model;
+use crate::model::{DeclaredUnit, Model};
 use crate::syntax::{self, ast};
 use crate::units::Dimension;
 
@@ -98,7 +98,13 @@ enum Global {
 /// A state or input as expressions see it.
 struct VarInfo {
     /// `None` when its unit was refused (already reported).
-    dimension: Option<Dimension>,
+    unit: Option<DeclaredUnit>,
+}
+
+impl VarInfo {
+    fn dimension(&self) -> Option<Dimension> {
+        self.unit.as_ref().map(|u| u.dimension)
+    }
 }
 
 /// A constant as expressions see it.

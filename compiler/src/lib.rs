@@ -7,5 +7,6 @@
 //! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
 
 pub mod diag;
+pub mod ir;
 pub mod model;
 pub mod units;

@@ -97,7 +97,11 @@ impl Dimension {
         self.exponents[base.index()]
     }
 
-    fn zip(&self, other: &Dimension, op: impl Fn(Rational, Rational) -> Option<Rational>) -> Option<Dimension> {
+    fn zip(
+        &self,
+        other: &Dimension,
+        op: impl Fn(Rational, Rational) -> Option<Rational>,
+    ) -> Option<Dimension> {
         let mut out = Dimension::NONE;
         for i in 0..9 {
             out.exponents[i] = op(self.exponents[i], other.exponents[i])?;
@@ -134,7 +138,10 @@ impl Dimension {
     /// True when the SI (hard) exponents are all zero: a pure number, an angle or
     /// a cycle count.
     pub fn is_dimensionless(&self) -> bool {
-        Base::ALL.iter().filter(|b| !b.is_soft()).all(|b| self.exponent(*b).is_zero())
+        Base::ALL
+            .iter()
+            .filter(|b| !b.is_soft())
+            .all(|b| self.exponent(*b).is_zero())
     }
 
     /// True for a plain angle (dimensionless with angle exponent one), the only
@@ -214,7 +221,9 @@ mod tests {
 
     #[test]
     fn displays_in_si_form() {
-        let accel = length().div(&time().pow(Rational::integer(2)).unwrap()).unwrap();
+        let accel = length()
+            .div(&time().pow(Rational::integer(2)).unwrap())
+            .unwrap();
         assert_eq!(accel.to_string(), "m s^-2");
         let density = accel.mul(&time().pow(Rational::HALF).unwrap()).unwrap();
         assert_eq!(density.to_string(), "m s^-3/2");

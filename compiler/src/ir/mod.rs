@@ -44,6 +44,8 @@ pub mod verify;
 
 #[cfg(test)]
 mod test_models;
+#[cfg(test)]
+mod test_trees;
 
 use std::fmt;
 

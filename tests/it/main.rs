@@ -1,2 +1,3 @@
 //! End-to-end and external-reference tests.
+mod ir_reference;
 mod runtime_reference;

@@ -8,9 +8,12 @@
 
 pub mod back;
 pub mod build;
+pub mod check;
 pub mod diag;
+pub mod ir;
 pub mod model;
 pub mod options;
 pub mod project;
 pub mod stats;
+pub mod syntax;
 pub mod units;

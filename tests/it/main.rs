@@ -1,1 +1,2 @@
 //! End-to-end and external-reference tests.
+mod runtime_reference;

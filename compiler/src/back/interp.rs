@@ -5,14 +5,13 @@
 //! This is the reference path generated code is tested against, and the simulator's
 //! way of running a spec without compiling it: the same runtime algorithms, with the
 //! model functions interpreted instead of generated. The process noise is the IR's `Q`
-//! (the spec's values); run-time matrices of linear time-invariant motion are computed
-//! the way generated code computes them (Van Loan's exponential when white noise needs
-//! it, `exp(A dt)` otherwise, and the input gain from `exp([[A, I], [0, 0]] dt)`).
+//! (the spec's values); run-time matrices of linear time-invariant motion come from
+//! [`LinearSystem::runtime_matrices`](crate::ir::LinearSystem::runtime_matrices), which
+//! computes them the way generated code does.
 
 use std::collections::BTreeSet;
 
 use nalgebra::{DMatrix, DVector, Dyn};
-use reckon_runtime::expm::{expm, van_loan};
 use reckon_runtime::{MotionModel, ReadingModel, Real, UpdateForm};
 
 use crate::ir::eval::{Bindings, Evaluator, Float};
@@ -46,15 +45,6 @@ fn runtime_matrices(lowered: &Lowered, roots: &[NodeId]) -> BTreeSet<RuntimeMatr
         .collect()
 }
 
-fn row_major<T: Scalar>(matrix: &DMatrix<T>) -> (usize, Vec<T>) {
-    let cols = matrix.ncols();
-    let values = (0..matrix.nrows())
-        .flat_map(|r| (0..cols).map(move |c| (r, c)))
-        .map(|(r, c)| matrix[(r, c)])
-        .collect();
-    (cols, values)
-}
-
 impl<'a> InterpretedMotion<'a> {
     /// The motion model of `lowered`.
     pub fn new(lowered: &'a Lowered) -> InterpretedMotion<'a> {
@@ -71,45 +61,22 @@ impl<'a> InterpretedMotion<'a> {
         }
     }
 
-    /// Symbol values for `(x, u, dt)`, with the run-time matrices the model reads.
+    /// Symbol values for `(x, u, dt)`, with the run-time matrices the model reads
+    /// (left unbound, so NaN, when the exponential fails: the filter then rejects
+    /// the step as non-finite).
     pub fn bindings<T: Scalar>(&self, x: &DVector<T>, u: &DVector<T>, dt: T) -> Bindings<T> {
         let mut bindings = Bindings::new(x.iter().copied().collect(), u.iter().copied().collect(), dt);
         if self.runtime.is_empty() {
             return bindings;
         }
-        let Some(system) = self.lowered.discretisation.linear_system.as_ref() else {
-            return bindings;
-        };
-        let n = system.states;
-        let convert = |values: &[f64]| DMatrix::from_row_iterator(n, n, values.iter().map(|&v| <T as Float>::from_f64(v)));
-        let a = convert(&system.a);
-        let nan = DMatrix::from_element(n, n, T::NAN);
-        let (phi, qd) = if self.runtime.contains(&RuntimeMatrix::ProcessNoise) {
-            let density = convert(&system.noise_density);
-            match van_loan(&a, &density, dt, Dyn(2 * n)) {
-                Ok(d) => (d.transition, d.noise),
-                Err(_) => (nan.clone(), nan.clone()),
-            }
-        } else {
-            (expm(&(&a * dt)).unwrap_or_else(|_| nan.clone()), nan.clone())
-        };
-        bindings.runtime.insert(RuntimeMatrix::Transition, row_major(&phi));
-        bindings.runtime.insert(RuntimeMatrix::ProcessNoise, row_major(&qd));
-        if self.runtime.contains(&RuntimeMatrix::InputGain) {
-            let block = DMatrix::from_fn(2 * n, 2 * n, |r, c| {
-                if r < n && c < n {
-                    a[(r, c)] * dt
-                } else if r < n && c == r + n {
-                    dt
-                } else {
-                    T::ZERO
-                }
-            });
-            let gamma = match expm(&block) {
-                Ok(e) => e.view((0, n), (n, n)).into_owned(),
-                Err(_) => nan,
-            };
-            bindings.runtime.insert(RuntimeMatrix::InputGain, row_major(&gamma));
+        if let Some(Ok(values)) = self
+            .lowered
+            .discretisation
+            .linear_system
+            .as_ref()
+            .map(|system| system.runtime_matrices(dt))
+        {
+            bindings.runtime = values;
         }
         bindings
     }

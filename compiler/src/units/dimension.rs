@@ -210,6 +210,7 @@ impl fmt::Display for Dimension {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use proptest::prelude::*;
 
     fn length() -> Dimension {
         Dimension::base(Base::Length)
@@ -241,5 +242,63 @@ mod tests {
         assert!(rad_per_s.angle_cycle_conflict(&hz));
         assert!(Dimension::base(Base::Angle).is_angle());
         assert!(!length().is_angle());
+    }
+
+    /// Any dimension with small rational exponents on all nine axes.
+    fn any_dimension() -> impl Strategy<Value = Dimension> {
+        proptest::collection::vec((-4i64..=4, 1i64..=3), 9).prop_map(|exponents| {
+            Base::ALL
+                .iter()
+                .zip(exponents)
+                .fold(Dimension::NONE, |acc, (base, (n, d))| {
+                    let exponent = Rational::new(n, d).unwrap_or(Rational::ZERO);
+                    let axis = Dimension::base(*base)
+                        .pow(exponent)
+                        .unwrap_or(Dimension::NONE);
+                    acc.mul(&axis).unwrap_or(acc)
+                })
+        })
+    }
+
+    fn small_exponent() -> impl Strategy<Value = Rational> {
+        (-5i64..=5, 1i64..=4).prop_map(|(n, d)| Rational::new(n, d).unwrap_or(Rational::ONE))
+    }
+
+    proptest! {
+        #[test]
+        fn product_is_associative_and_commutative(a in any_dimension(), b in any_dimension(), c in any_dimension()) {
+            prop_assert_eq!(a.mul(&b), b.mul(&a));
+            prop_assert_eq!(a.mul(&b).and_then(|ab| ab.mul(&c)), b.mul(&c).and_then(|bc| a.mul(&bc)));
+        }
+
+        #[test]
+        fn reciprocal_is_inverse(a in any_dimension(), b in any_dimension()) {
+            prop_assert_eq!(a.mul(&a.recip()), Some(Dimension::NONE));
+            prop_assert_eq!(a.div(&b).and_then(|q| q.mul(&b)), Some(a));
+        }
+
+        #[test]
+        fn power_laws_hold(a in any_dimension(), b in any_dimension(), p in small_exponent(), q in small_exponent()) {
+            prop_assert_eq!(a.pow(p).and_then(|x| x.pow(q)), p.checked_mul(q).and_then(|pq| a.pow(pq)));
+            prop_assert_eq!(
+                a.mul(&b).and_then(|ab| ab.pow(p)),
+                a.pow(p).and_then(|ap| b.pow(p).and_then(|bp| ap.mul(&bp)))
+            );
+        }
+
+        #[test]
+        fn compatibility_ignores_only_the_soft_axes(a in any_dimension()) {
+            prop_assert!(a.compatible(&a.hard()));
+            prop_assert!(!a.angle_cycle_conflict(&a));
+            let longer = a.mul(&Dimension::base(Base::Length));
+            prop_assert_eq!(longer.map(|l| l.compatible(&a)), Some(false));
+        }
+
+        #[test]
+        fn overflow_is_none_not_panic(a in any_dimension(), p in any::<i64>(), q in 1i64..i64::MAX) {
+            if let Some(exponent) = Rational::new(p, q) {
+                let _ = a.pow(exponent).and_then(|x| x.pow(exponent)).and_then(|x| x.mul(&a));
+            }
+        }
     }
 }

@@ -512,9 +512,8 @@ fn tuning_struct(ctx: &Context) -> TokenStream {
 }
 
 /// The expression building `Dynamics` for a step of `dt`.
-fn dynamics_value(models: &models::Models) -> TokenStream {
-    let needs_tuning = models.dynamics_reads_tuning
-        || models.runtime.contains(&RuntimeMatrix::ProcessNoise);
+fn dynamics_value(ctx: &Context, models: &models::Models) -> TokenStream {
+    let needs_tuning = models.dynamics_reads_tuning || !white_states(ctx.model).is_empty();
     if !models.runtime.is_empty() {
         if needs_tuning {
             quote!(Dynamics::discretised(&self.tuning, dt))
@@ -563,7 +562,7 @@ fn estimator(ctx: &Context, models: &models::Models) -> TokenStream {
     } else {
         (quote!(let filter), quote!())
     };
-    let dynamics = dynamics_value(models);
+    let dynamics = dynamics_value(ctx, models);
     let predict_call = if ukf {
         quote!(self.filter.predict_unscented(&dynamics, &input.si_vector(), dt, &WEIGHTS))
     } else {
@@ -722,44 +721,45 @@ fn dynamics(ctx: &Context, models: &models::Models) -> TokenStream {
     let zero = ctx.number(0.0);
     let a = construct(size, size, |r, c| ctx.number(system.a[r * size + c]));
     let uses = |m| models.runtime.contains(&m);
+    let reads_densities = !white_states(ctx.model).is_empty();
     let tuning_param = if stores_tuning {
         quote!(tuning: &'a Tuning,)
-    } else if uses(RuntimeMatrix::ProcessNoise) {
+    } else if reads_densities {
         quote!(tuning: &Tuning,)
     } else {
         quote!()
     };
-    let phi_pattern = if uses(RuntimeMatrix::Transition) {
-        quote!(phi)
-    } else {
-        quote!(_)
+    let pattern = |m: RuntimeMatrix| {
+        if uses(m) {
+            let field = Ident::new(runtime_field(m), proc_macro2::Span::call_site());
+            quote!(#field)
+        } else {
+            quote!(_)
+        }
     };
-    let exponentials = if uses(RuntimeMatrix::ProcessNoise) {
-        let white = white_states(ctx.model);
-        let density = construct(size, size, |r, c| {
-            if r == c && white.contains(&r) {
-                let field = ctx.tuning_white(r);
-                quote!(tuning.#field * tuning.#field)
-            } else {
-                zero.clone()
-            }
-        });
-        let block = usize_literal(2 * size);
-        quote! {
-            let a: SMatrix<#t, #n, #n> = #a;
-            let density: SMatrix<#t, #n, #n> = #density;
-            let (#phi_pattern, qd) = match reckon_runtime::expm::van_loan(&a, &density, dt, Const::<#block>) {
-                Ok(discretised) => (discretised.transition, discretised.noise),
-                Err(_) => (nan, nan),
-            };
+    let (phi_pattern, qd_pattern) = (
+        pattern(RuntimeMatrix::Transition),
+        pattern(RuntimeMatrix::ProcessNoise),
+    );
+    // Phi and Qd from one Van Loan exponential (with zero density when there is no
+    // white noise), as the interpreter computes them.
+    let white = white_states(ctx.model);
+    let density = construct(size, size, |r, c| {
+        if r == c && white.contains(&r) {
+            let field = ctx.tuning_white(r);
+            quote!(tuning.#field * tuning.#field)
+        } else {
+            zero.clone()
         }
-    } else if uses(RuntimeMatrix::Transition) {
-        quote! {
-            let a: SMatrix<#t, #n, #n> = #a;
-            let phi = reckon_runtime::expm::expm(&(a * dt)).unwrap_or(nan);
-        }
-    } else {
-        quote!()
+    });
+    let block = usize_literal(2 * size);
+    let exponentials = quote! {
+        let a: SMatrix<#t, #n, #n> = #a;
+        let density: SMatrix<#t, #n, #n> = #density;
+        let (#phi_pattern, #qd_pattern) = match reckon_runtime::expm::van_loan(&a, &density, dt, Const::<#block>) {
+            Ok(discretised) => (discretised.transition, discretised.noise),
+            Err(_) => (nan, nan),
+        };
     };
     let gamma = if uses(RuntimeMatrix::InputGain) {
         // Gamma is the top-right block of exp([[A, I], [0, 0]] dt).

@@ -1,14 +1,13 @@
-//! Tests of the Rust back end on models built in Rust (see `ir::test_models`).
+//! Tests of the Rust back end.
 
 use super::*;
-use crate::ir::test_models;
 use crate::options::EstimatorOptions;
 
 #[test]
-fn constant_velocity_generates() {
-    let model = test_models::constant_velocity(1.0);
-    let generated = generate_from_model("cv.reckon", "", &model, &EstimatorOptions::default());
-    match generated {
+fn print_rail_cart() {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../specs/rail_cart.reckon");
+    let text = std::fs::read_to_string(path).unwrap();
+    match generate("specs/rail_cart.reckon", &text, &EstimatorOptions::default()) {
         Ok(g) => println!("{}", g.code),
         Err(e) => panic!("{e:?}"),
     }

@@ -43,13 +43,9 @@ mod unit_check;
 pub mod verify;
 
 #[cfg(test)]
-<<<<<<< HEAD
-mod test_models;
+pub(crate) mod test_models;
 #[cfg(test)]
 mod test_trees;
-=======
-pub(crate) mod test_models;
->>>>>>> gen
 
 use std::fmt;
 

@@ -17,7 +17,9 @@ pub(crate) fn refuse_method(method: Method) -> Vec<Diagnostic> {
         Span::default(),
         format!("method `{}` cannot be generated yet", method.name()),
     )
-    .with_note("the method was chosen in the build options (reckon.toml, command line or build script)")
+    .with_note(
+        "the method was chosen in the build options (reckon.toml, command line or build script)",
+    )
     .with_hint("choose `kf`, `ekf` or `ukf`")]
 }
 
@@ -100,10 +102,7 @@ fn gaussian_noise(model: &Model) -> Vec<Diagnostic> {
                 if !distribution.is_gaussian() {
                     errors.push(refuse_distribution(
                         component.span,
-                        format!(
-                            "the reading noise of `{}.{}`",
-                            sensor.name, component.name
-                        ),
+                        format!("the reading noise of `{}.{}`", sensor.name, component.name),
                         distribution,
                     ));
                 }

@@ -63,12 +63,18 @@
 
 pub mod angle;
 pub mod expm;
+pub mod grid;
 pub mod health;
 pub mod kalman;
 pub mod linalg;
 pub mod model;
 pub mod outcome;
+pub mod particle;
 pub mod unscented;
+
+/// The linear-algebra crate the filters are written in, re-exported so generated modules
+/// name its types and math traits (`ComplexField`, `RealField`) through this crate.
+pub use nalgebra;
 
 #[cfg(test)]
 mod test_models;

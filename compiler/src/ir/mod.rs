@@ -43,7 +43,7 @@ mod unit_check;
 pub mod verify;
 
 #[cfg(test)]
-mod test_models;
+pub(crate) mod test_models;
 #[cfg(test)]
 mod test_trees;
 

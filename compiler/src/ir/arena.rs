@@ -10,7 +10,6 @@
 //! - `x + 0`, `0 + x`, `x - 0` -> `x`; `0 - x` -> `-x`; `x - x` -> `0`;
 //!   `x * 1`, `x / 1`, `x ^ 1` -> `x`; `x * -1`, `x / -1` -> `-x`;
 //!   `x ^ 0`, `1 ^ x` -> `1` (as IEEE `pow` defines them even for NaN);
-//!   `x ^ 2` -> `x * x` (the correctly rounded square);
 //!   `-(-x)` -> `x`; `a - (-b)` -> `a + b`; `a + (-b)`, `(-b) + a` -> `a - b`;
 //!   `(-a) * b`, `a * (-b)` -> `-(a * b)` and the same for `/` (IEEE rounding is
 //!   symmetric in sign, so these are exact); `abs(-x)`, `abs(abs x)` -> `abs x`;
@@ -243,7 +242,6 @@ impl Arena {
             Binary::Pow if self.is_constant(b, 0.0) || self.is_constant(a, 1.0) => {
                 self.constant(1.0)
             }
-            Binary::Pow if self.is_constant(b, 2.0) => self.mul(a, a),
             Binary::Min | Binary::Max if a == b => a,
             _ => return None,
         })
@@ -265,13 +263,6 @@ impl Arena {
             .filter(|(_, &s)| s)
             .map(|(i, _)| NodeId(i as u32))
             .collect()
-    }
-
-    /// True when `symbol` occurs in the expression `root`.
-    pub fn depends_on(&self, root: NodeId, symbol: Symbol) -> bool {
-        self.reachable(&[root])
-            .into_iter()
-            .any(|id| *self.node(id) == Node::Symbol(symbol))
     }
 
     /// `root` with symbols replaced by nodes (`replace` returns `None` to keep a
@@ -387,9 +378,10 @@ mod tests {
         let x_minus_y = arena.sub(x, y);
         assert_eq!(arena.add(x, ny), x_minus_y);
         assert_eq!(arena.binary(Binary::Pow, x, one), x);
+        // x^2 stays a power: `powf(x, 2)` and `x * x` may differ in the last bit.
         let two = arena.constant(2.0);
         let square = arena.binary(Binary::Pow, x, two);
-        assert_eq!(*arena.node(square), Node::Binary(Binary::Mul, x, x));
+        assert_eq!(*arena.node(square), Node::Binary(Binary::Pow, x, two));
         // (x + y) + 1 and x + (y + 1) stay distinct.
         let left = arena.add(x_plus_y, one);
         let y1 = arena.add(y, one);

@@ -9,9 +9,9 @@
 
 use super::Severity;
 
-/// A diagnostic code and its documentation.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub struct Code {
+/// The documentation of a diagnostic code.
+#[derive(Debug, PartialEq, Eq, Hash)]
+pub struct CodeInfo {
     /// Stable identifier such as `E0301`.
     pub id: &'static str,
     /// Default severity.
@@ -20,6 +20,19 @@ pub struct Code {
     pub title: &'static str,
     /// Long explanation with a small example (plain text, may span lines).
     pub explanation: &'static str,
+}
+
+/// A diagnostic code: a pointer-sized handle to its [`CodeInfo`] (fields readable
+/// through `Deref`, e.g. `code.id`), so diagnostics stay small.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct Code(&'static CodeInfo);
+
+impl std::ops::Deref for Code {
+    type Target = CodeInfo;
+
+    fn deref(&self) -> &CodeInfo {
+        self.0
+    }
 }
 
 impl serde::Serialize for Code {
@@ -37,12 +50,12 @@ macro_rules! codes {
     ($($name:ident = $id:literal, $sev:ident, $title:literal, $expl:literal;)*) => {
         $(
             #[doc = $title]
-            pub const $name: Code = Code {
+            pub const $name: Code = Code(&CodeInfo {
                 id: $id,
                 severity: Severity::$sev,
                 title: $title,
                 explanation: $expl,
-            };
+            });
         )*
         /// Every code, in catalogue order.
         pub const ALL: &[Code] = &[$($name),*];
@@ -153,6 +166,8 @@ codes! {
         "A sensor has at most one gate.\n\nExample:\n    gate 99 %  gate 95 %";
     UNKNOWN_COMPONENT = "E0504", Error, "noise for an unknown component",
         "`name ~ dist` inside a sensor gives the noise of the component called `name`; no\ncomponent of this sensor has that name.\n\nExample:\n    sensor compass { hdg : deg = heading  heading ~ normal(2 deg) }\nFix: `hdg ~ normal(2 deg)`.";
+    PROJECT_FILE_INVALID = "E0701", Error, "the project file is not valid",
+        "`reckon.toml` could not be read: a key is unknown, a value has the wrong type, or a\nrequired key is missing. Each `[[estimator]]` table needs `spec` and `output`:\n\n    [[estimator]]\n    spec = \"specs/rail_cart.reckon\"\n    output = \"src/rail_cart.rs\"\n    method = \"ekf\"      # kf, ekf, ukf, grid, particle\n    scalar = \"f32\"      # f32 or f64\n";
     UNOBSERVED_STATE = "W0801", Warning, "state never observed",
         "No sensor reading depends on this state, directly or through the motion of a state\nthat is read: the filter can only predict it, and its uncertainty grows without\nbound. (This is a structural test; the IR stage runs a full observability test.)\n\nExample:\n    state { x : m  drift : m/s }\n    sensor s { r : m = x ... }\n    // and drift appears in no equation that reaches x";
     BARE_ANGLE = "W0802", Warning, "bare number used as an angle",

@@ -1,0 +1,6 @@
+//! Back ends: turning a lowered model into artifacts (generated Rust modules).
+//!
+//! `output` owns how generated files reach a repository (header, hashing,
+//! write-if-changed, check mode).
+
+pub mod output;

@@ -8,9 +8,12 @@
 
 pub mod back;
 pub mod diag;
+pub mod format;
 pub mod model;
 pub mod options;
 pub mod project;
+pub mod reference;
+pub mod scaffold;
 pub mod stats;
 pub mod syntax;
 pub mod units;

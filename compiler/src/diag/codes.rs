@@ -153,7 +153,7 @@ codes! {
     COVARIANCE_SHAPE = "E0409", Error, "covariance has the wrong shape",
         "A full covariance is a square matrix with one row and one column per reading\ncomponent, in declaration order; rows are separated by `;`.\n\nExample:\n    noise ~ covariance [ 1 m^2, 0 m^2 ]      // two components\nFix: `covariance [ 1 m^2, 0 m^2 ; 0 m^2, 1 m^2 ]`.";
     COVARIANCE_DIMENSION = "E0410", Error, "covariance entry has the wrong dimension",
-        "Entry (i, j) of a reading covariance has the dimension of component i times\ncomponent j (m^2 for two ranges, m*rad for a range and a bearing).\n\nExample:\n    covariance [ 1 m^2, 0 m ; 0 m, 4 deg^2 ]\nFix: `covariance [ 1 m^2, 0 m*deg ; 0 m*deg, 4 deg^2 ]`.";
+        "Entry (i, j) of a reading covariance has the dimension of component i times\ncomponent j (m^2 for two ranges, m^2/s for a range and a range rate).\n\nExample:\n    sensor s { r : m = x  w : m/s = v\n      noise ~ covariance [ 1 m^2, 0 m ; 0 m, 0.01 m^2/s^2 ] }\nFix: `covariance [ 1 m^2, 0 m^2/s ; 0 m^2/s, 0.01 m^2/s^2 ]`.";
     COVARIANCE_ASYMMETRIC = "E0411", Error, "covariance is not symmetric",
         "A covariance matrix equals its transpose: entry (i, j) and entry (j, i) must agree\n(after conversion to SI).\n\nExample:\n    covariance [ 1 m^2, 0.2 m^2 ; 0.3 m^2, 1 m^2 ]";
     COVARIANCE_NOT_SPD = "E0412", Error, "covariance is not positive definite",

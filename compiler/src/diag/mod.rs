@@ -6,6 +6,7 @@
 //! lives in [`render`], so every stage's problems look the same to the user.
 
 pub mod codes;
+pub mod render;
 
 pub use codes::Code;
 

@@ -5,6 +5,7 @@
 use pest::error::{ErrorVariant, InputLocation};
 
 use super::parser::Rule;
+use super::scan::ITEM_KEYWORDS;
 use crate::diag::{codes, Diagnostic, Span};
 
 const ITEM_WORDS: &str =
@@ -12,8 +13,19 @@ const ITEM_WORDS: &str =
 
 /// Words reserved by the grammar; using one as a name gets its own hint.
 const RESERVED: [&str; 13] = [
-    "model", "const", "state", "input", "motion", "process", "sensor", "initial", "noise", "gate",
-    "wrap", "covariance", "by",
+    "model",
+    "const",
+    "state",
+    "input",
+    "motion",
+    "process",
+    "sensor",
+    "initial",
+    "noise",
+    "gate",
+    "wrap",
+    "covariance",
+    "by",
 ];
 
 /// Punctuation worth naming when the grammar expected it.
@@ -100,7 +112,11 @@ fn join_alternatives(words: &[&str]) -> String {
 }
 
 /// A diagnostic for a pest error in the item starting at `offset` of `text`.
-pub(super) fn syntax_error(error: &pest::error::Error<Rule>, text: &str, offset: usize) -> Diagnostic {
+pub(super) fn syntax_error(
+    error: &pest::error::Error<Rule>,
+    text: &str,
+    offset: usize,
+) -> Diagnostic {
     let reported = match error.location {
         InputLocation::Pos(p) => p,
         InputLocation::Span((s, _)) => s,
@@ -110,8 +126,12 @@ pub(super) fn syntax_error(error: &pest::error::Error<Rule>, text: &str, offset:
         ErrorVariant::CustomError { message } => {
             // pest's own guards ("call limit reached", "stack limit reached").
             let at = (offset + reported).min(text.len());
-            return Diagnostic::new(codes::TOO_DEEP, Span::new(at, at), format!("the parser gave up here: {message}"))
-                .with_hint("simplify the nesting around this point");
+            return Diagnostic::new(
+                codes::TOO_DEEP,
+                Span::new(at, at),
+                format!("the parser gave up here: {message}"),
+            )
+            .with_hint("simplify the nesting around this point");
         }
     };
 
@@ -126,7 +146,13 @@ pub(super) fn syntax_error(error: &pest::error::Error<Rule>, text: &str, offset:
     let relative = match error.parse_attempts() {
         Some(attempts) if attempts.max_position >= reported => {
             for stack in attempts.call_stacks() {
-                if let Some(w) = stack.deepest.get_rule().copied().or(stack.parent).and_then(describe) {
+                if let Some(w) = stack
+                    .deepest
+                    .get_rule()
+                    .copied()
+                    .or(stack.parent)
+                    .and_then(describe)
+                {
                     push(w);
                 }
             }
@@ -139,11 +165,22 @@ pub(super) fn syntax_error(error: &pest::error::Error<Rule>, text: &str, offset:
             attempts.max_position
         }
         _ => {
-            positives.into_iter().filter_map(describe).for_each(&mut push);
+            positives
+                .into_iter()
+                .filter_map(describe)
+                .for_each(&mut push);
             reported
         }
     };
-    let at = (offset + relative).min(text.len());
+    let mut at = (offset + relative).min(text.len());
+    // A reserved word where a name belongs fails inside the word's own rule; point
+    // at the whole word rather than at the blank after it.
+    let word_start = text[..at]
+        .rfind(|c: char| !(c.is_ascii_alphanumeric() || c == '_'))
+        .map_or(0, |n| n + 1);
+    if words.contains(&"a name") && RESERVED.contains(&&text[word_start..at]) {
+        at = word_start;
+    }
     let (found, found_len) = found_at(text, at);
     let span = Span::new(at, at + found_len);
 
@@ -157,16 +194,25 @@ pub(super) fn syntax_error(error: &pest::error::Error<Rule>, text: &str, offset:
 
     words.truncate(6);
     let expected = join_alternatives(&words);
-    let mut diagnostic = Diagnostic::new(codes::SYNTAX, span, format!("expected {expected}, found {found}"))
-        .with_label_message(format!("expected {expected}"));
+    let mut diagnostic = Diagnostic::new(
+        codes::SYNTAX,
+        span,
+        format!("expected {expected}, found {found}"),
+    )
+    .with_label_message(format!("expected {expected}"));
     let word = found.trim_matches('`');
-    if RESERVED.contains(&word) && words.contains(&"a name") {
-        diagnostic = diagnostic.with_hint(format!("`{word}` is a reserved word; choose another name"));
+    if ITEM_KEYWORDS.contains(&word) && words.contains(&"`}`") {
+        diagnostic =
+            diagnostic.with_hint(format!("a `}}` may be missing: `{word}` starts a new item"));
+    } else if RESERVED.contains(&word) && words.contains(&"a name") {
+        diagnostic =
+            diagnostic.with_hint(format!("`{word}` is a reserved word; choose another name"));
     }
     diagnostic
 }
 
 /// Characters that may appear in a spec outside comments.
 fn is_language_char(c: char) -> bool {
-    (c.is_ascii() && (!c.is_ascii_control() || c.is_ascii_whitespace())) || "µμ°Ω·\u{FEFF}".contains(c)
+    (c.is_ascii() && (!c.is_ascii_control() || c.is_ascii_whitespace()))
+        || "µμ°Ω·\u{FEFF}".contains(c)
 }

@@ -78,7 +78,9 @@ pub(crate) fn on_big_stack<T: Send>(job: impl Fn() -> T + Sync) -> T {
             .stack_size(STACK_BYTES)
             .spawn_scoped(scope, &job);
         match spawned {
-            Ok(handle) => handle.join().unwrap_or_else(|panic| std::panic::resume_unwind(panic)),
+            Ok(handle) => handle
+                .join()
+                .unwrap_or_else(|panic| std::panic::resume_unwind(panic)),
             Err(_) => job(),
         }
     })
@@ -136,7 +138,10 @@ mod tests {
         assert_eq!(shape(&const_value("const c = 2^-1")), "(2 ^ (-1))");
         assert_eq!(shape(&const_value("const c = a^b^c")), "(a ^ (b ^ c))");
         assert_eq!(shape(&const_value("const c = a - b - c")), "((a - b) - c)");
-        assert_eq!(shape(&const_value("const c = a + b * c / d")), "(a + ((b * c) / d))");
+        assert_eq!(
+            shape(&const_value("const c = a + b * c / d")),
+            "(a + ((b * c) / d))"
+        );
     }
 
     #[test]
@@ -145,7 +150,10 @@ mod tests {
         assert_eq!(shape(&const_value("const c = 2 m/s^2")), "[2 m/s^2]");
         assert_eq!(shape(&const_value("const c = 3 N·m")), "[3 N*m]");
         assert_eq!(shape(&const_value("const c = 3 (N*m)")), "[3 (N*m)]");
-        assert_eq!(shape(&const_value("const c = 4 deg/h/sqrt(h)")), "[4 deg/h/sqrt(h)]");
+        assert_eq!(
+            shape(&const_value("const c = 4 deg/h/sqrt(h)")),
+            "[4 deg/h/sqrt(h)]"
+        );
         assert_eq!(shape(&const_value("const c = 1 Hz^(1/2)")), "[1 Hz^(1/2)]");
         assert_eq!(shape(&const_value("const c = 99.9 %")), "[99.9 %]");
         assert_eq!(shape(&const_value("const c = 1_000 m")), "[1_000 m]");
@@ -168,16 +176,24 @@ mod tests {
 
     #[test]
     fn comments_survive_and_docs_attach() {
-        let file = parse_ok("/// The cart.\nmodel cart // tail\nstate {\n  /// Along the rail.\n  x : m\n}\n");
+        let file = parse_ok(
+            "/// The cart.\nmodel cart // tail\nstate {\n  /// Along the rail.\n  x : m\n}\n",
+        );
         assert_eq!(file.comments.len(), 3);
         let Some(Item::Model(model)) = file.items.first() else {
             panic!("expected model");
         };
-        assert_eq!(model.doc.as_ref().map(|d| d.text.as_str()), Some("The cart."));
+        assert_eq!(
+            model.doc.as_ref().map(|d| d.text.as_str()),
+            Some("The cart.")
+        );
         let Some(Item::State(state)) = file.items.get(1) else {
             panic!("expected state");
         };
-        assert_eq!(state.vars[0].doc.as_ref().map(|d| d.text.as_str()), Some("Along the rail."));
+        assert_eq!(
+            state.vars[0].doc.as_ref().map(|d| d.text.as_str()),
+            Some("Along the rail.")
+        );
     }
 
     #[test]

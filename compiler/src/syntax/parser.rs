@@ -39,7 +39,9 @@ pub(super) fn parse_item(
     let item = pairs
         .next()
         .and_then(|chunk| chunk.into_inner().next())
-        .ok_or_else(|| Diagnostic::new(codes::INTERNAL, Span::new(offset, offset), "empty parse"))?;
+        .ok_or_else(|| {
+            Diagnostic::new(codes::INTERNAL, Span::new(offset, offset), "empty parse")
+        })?;
     Builder { offset, docs }.item(item)
 }
 
@@ -51,7 +53,10 @@ pub(super) struct DocTable {
 impl DocTable {
     pub(super) fn new(blocks: Vec<(usize, Doc)>) -> DocTable {
         DocTable {
-            blocks: blocks.into_iter().map(|(at, doc)| (at, doc, false)).collect(),
+            blocks: blocks
+                .into_iter()
+                .map(|(at, doc)| (at, doc, false))
+                .collect(),
         }
     }
 
@@ -63,7 +68,10 @@ impl DocTable {
 
     /// Doc blocks no item claimed.
     pub(super) fn unclaimed(&self) -> impl Iterator<Item = &Doc> {
-        self.blocks.iter().filter(|(_, _, used)| !used).map(|(_, doc, _)| doc)
+        self.blocks
+            .iter()
+            .filter(|(_, _, used)| !used)
+            .map(|(_, doc, _)| doc)
     }
 }
 
@@ -111,7 +119,10 @@ impl Builder<'_> {
         let rule = pair.as_rule();
         // Of the items, only these carry a doc; a doc before a block header stays
         // unclaimed and is reported as documenting nothing.
-        let doc = if matches!(rule, Rule::model_decl | Rule::const_decl | Rule::sensor_block) {
+        let doc = if matches!(
+            rule,
+            Rule::model_decl | Rule::const_decl | Rule::sensor_block
+        ) {
             self.docs.claim(span.start)
         } else {
             None
@@ -140,13 +151,21 @@ impl Builder<'_> {
                 let mut parts = children(pair).into_iter();
                 let keyword = self.keyword_span(&mut parts, span);
                 let vars = parts.map(|p| self.state_var(p)).collect::<Built<_>>()?;
-                Item::State(StateBlock { vars, keyword, span })
+                Item::State(StateBlock {
+                    vars,
+                    keyword,
+                    span,
+                })
             }
             Rule::input_block => {
                 let mut parts = children(pair).into_iter();
                 let keyword = self.keyword_span(&mut parts, span);
                 let vars = parts.map(|p| self.input_var(p)).collect::<Built<_>>()?;
-                Item::Input(InputBlock { vars, keyword, span })
+                Item::Input(InputBlock {
+                    vars,
+                    keyword,
+                    span,
+                })
             }
             Rule::motion_block => Item::Motion(self.motion(pair)?),
             Rule::process_block => Item::Process(self.noise_block(pair)?),
@@ -157,28 +176,48 @@ impl Builder<'_> {
     }
 
     fn unexpected(&self, span: Span) -> Diagnostic {
-        Diagnostic::new(codes::INTERNAL, span, "the parse tree has an unexpected shape")
+        Diagnostic::new(
+            codes::INTERNAL,
+            span,
+            "the parse tree has an unexpected shape",
+        )
     }
 
-    fn keyword_span<'i>(&self, parts: &mut impl Iterator<Item = Pair<'i, Rule>>, whole: Span) -> Span {
+    fn keyword_span<'i>(
+        &self,
+        parts: &mut impl Iterator<Item = Pair<'i, Rule>>,
+        whole: Span,
+    ) -> Span {
         parts.next().map_or(whole, |p| self.span(&p))
     }
 
-    fn next_ident<'i>(&self, parts: &mut impl Iterator<Item = Pair<'i, Rule>>, whole: Span) -> Built<Ident> {
+    fn next_ident<'i>(
+        &self,
+        parts: &mut impl Iterator<Item = Pair<'i, Rule>>,
+        whole: Span,
+    ) -> Built<Ident> {
         match parts.next() {
             Some(p) if p.as_rule() == Rule::ident => Ok(self.ident(&p)),
             _ => Err(self.unexpected(whole)),
         }
     }
 
-    fn next_expr<'i>(&self, parts: &mut impl Iterator<Item = Pair<'i, Rule>>, whole: Span) -> Built<Expr> {
+    fn next_expr<'i>(
+        &self,
+        parts: &mut impl Iterator<Item = Pair<'i, Rule>>,
+        whole: Span,
+    ) -> Built<Expr> {
         match parts.next() {
             Some(p) => self.expr(p),
             None => Err(self.unexpected(whole)),
         }
     }
 
-    fn next_unit<'i>(&self, parts: &mut impl Iterator<Item = Pair<'i, Rule>>, whole: Span) -> Built<Unit> {
+    fn next_unit<'i>(
+        &self,
+        parts: &mut impl Iterator<Item = Pair<'i, Rule>>,
+        whole: Span,
+    ) -> Built<Unit> {
         match parts.next() {
             Some(p) => self.unit(p),
             None => Err(self.unexpected(whole)),
@@ -198,7 +237,9 @@ impl Builder<'_> {
                 Rule::kw_wrap => wrap = Some(self.span(&part)),
                 Rule::grid_range => {
                     let range_span = self.span(&part);
-                    let mut bounds = children(part).into_iter().filter(|p| p.as_rule() == Rule::expr);
+                    let mut bounds = children(part)
+                        .into_iter()
+                        .filter(|p| p.as_rule() == Rule::expr);
                     let lo = self.next_expr(&mut bounds, range_span)?;
                     let hi = self.next_expr(&mut bounds, range_span)?;
                     let cell = bounds.next().map(|p| self.expr(p)).transpose()?;
@@ -280,7 +321,11 @@ impl Builder<'_> {
         let mut parts = children(pair).into_iter();
         let keyword = self.keyword_span(&mut parts, span);
         let stmts = parts.map(|p| self.noise_stmt(p)).collect::<Built<_>>()?;
-        Ok(NoiseBlock { stmts, keyword, span })
+        Ok(NoiseBlock {
+            stmts,
+            keyword,
+            span,
+        })
     }
 
     fn noise_stmt(&self, pair: Pair<'_, Rule>) -> Built<NoiseStmt> {
@@ -396,7 +441,11 @@ impl Builder<'_> {
         let rows = children(pair)
             .into_iter()
             .filter(|p| p.as_rule() == Rule::cov_row)
-            .map(|row| row.into_inner().map(|e| self.expr(e)).collect::<Built<Vec<_>>>())
+            .map(|row| {
+                row.into_inner()
+                    .map(|e| self.expr(e))
+                    .collect::<Built<Vec<_>>>()
+            })
             .collect::<Built<_>>()?;
         Ok(CovarianceExpr { rows, span })
     }
@@ -481,7 +530,10 @@ impl Builder<'_> {
                 ))
             }
             Rule::name => {
-                let ident = pair.into_inner().next().ok_or_else(|| self.unexpected(span))?;
+                let ident = pair
+                    .into_inner()
+                    .next()
+                    .ok_or_else(|| self.unexpected(span))?;
                 Ok((
                     Expr {
                         kind: ExprKind::Name(self.ident(&ident)),
@@ -509,7 +561,10 @@ impl Builder<'_> {
                 )
             }
             Rule::paren => {
-                let inner = pair.into_inner().next().ok_or_else(|| self.unexpected(span))?;
+                let inner = pair
+                    .into_inner()
+                    .next()
+                    .ok_or_else(|| self.unexpected(span))?;
                 let (inner, depth) = self.expr_with_depth(inner)?;
                 self.deepen(
                     Expr {
@@ -577,7 +632,10 @@ impl Builder<'_> {
             }
             Rule::unit_sqrt | Rule::unit_paren => {
                 let is_sqrt = pair.as_rule() == Rule::unit_sqrt;
-                let inner = pair.into_inner().next().ok_or_else(|| self.unexpected(span))?;
+                let inner = pair
+                    .into_inner()
+                    .next()
+                    .ok_or_else(|| self.unexpected(span))?;
                 let inner = Box::new(self.unit(inner)?);
                 let kind = if is_sqrt {
                     UnitKind::Sqrt(inner)

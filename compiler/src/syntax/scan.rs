@@ -77,7 +77,10 @@ pub fn doc_blocks(text: &str, comments: &[Comment]) -> Vec<(usize, Doc)> {
 }
 
 fn finish_doc(text: &str, lines: Vec<&str>, span: Span) -> (usize, Doc) {
-    let body: Vec<&str> = lines.iter().map(|l| l.strip_prefix(' ').unwrap_or(l)).collect();
+    let body: Vec<&str> = lines
+        .iter()
+        .map(|l| l.strip_prefix(' ').unwrap_or(l))
+        .collect();
     let rest = &text[span.end..];
     let target = span.end + (rest.len() - rest.trim_start().len());
     (
@@ -208,7 +211,10 @@ mod tests {
     #[test]
     fn nesting_limit_counts_brackets_and_chained_powers() {
         let deep = format!("const c = {}1{}", "(".repeat(300), ")".repeat(300));
-        assert_eq!(too_deep(&deep), Some(Span::new(10 + MAX_NESTING, 11 + MAX_NESTING)));
+        assert_eq!(
+            too_deep(&deep),
+            Some(Span::new(10 + MAX_NESTING, 11 + MAX_NESTING))
+        );
         let shallow = format!("const c = {}1{}", "(".repeat(100), ")".repeat(100));
         assert_eq!(too_deep(&shallow), None);
         let powers = format!("const c = 2{}", "^2".repeat(300));

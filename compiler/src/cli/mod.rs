@@ -1,0 +1,59 @@
+//! Command-line interface: the subcommand enum and the exit-code convention.
+//!
+//! Exit codes: 0 success (warnings allowed), 1 the input has errors, 2 usage or I/O
+//! problem. A new subcommand is a new variant of [`Command`] plus a module with an
+//! `Args` struct and a `run` function.
+
+mod check;
+mod explain;
+
+use clap::{Parser, Subcommand};
+
+/// Exit code: everything checked out (warnings allowed).
+pub const EXIT_OK: i32 = 0;
+/// Exit code: some input has errors.
+pub const EXIT_ERRORS: i32 = 1;
+/// Exit code: bad usage or an I/O problem.
+pub const EXIT_USAGE: i32 = 2;
+
+#[derive(Parser)]
+#[command(
+    name = "reckon",
+    version,
+    about = "Check state-estimator specs, generate estimators, simulate them",
+    after_help = "Examples:\n  reckon check specs/rail_cart.reckon\n  reckon check --format json specs/*.reckon\n  reckon explain E0303"
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Check specs for syntax, unit, noise and structure errors.
+    Check(check::Args),
+    /// Explain a diagnostic code, with an example.
+    Explain(explain::Args),
+}
+
+/// Parses the command line, runs the subcommand, and returns the exit code.
+pub fn run() -> i32 {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(error) => {
+            // `--help` and `--version` are reported as "errors" by clap but succeed.
+            let code = if error.use_stderr() {
+                EXIT_USAGE
+            } else {
+                EXIT_OK
+            };
+            // Nothing sensible remains to do if the terminal is gone.
+            let _ = error.print();
+            return code;
+        }
+    };
+    match cli.command {
+        Command::Check(args) => check::run(&args),
+        Command::Explain(args) => explain::run(&args),
+    }
+}

@@ -149,15 +149,15 @@ process {
 sensor wheels {
   v_left  : m/s = speed - yaw_rate * track / 2
   v_right : m/s = speed + yaw_rate * track / 2
-  noise   ~ normal(0.03 m/s)   // encoder quantisation and slip, 1 sigma
+  noise   ~ normal(0.03 m/s)  // encoder quantisation and slip, 1 sigma
 }
 
 /// Position fix (for example a GNSS receiver), east and north in metres.
 sensor position_fix {
   fix_east  : m = east
   fix_north : m = north
-  noise     ~ normal(1.5 m)    // horizontal accuracy, 1 sigma
-  gate 99.9 %                  // reject readings this unlikely
+  noise     ~ normal(1.5 m)  // horizontal accuracy, 1 sigma
+  gate 99.9 %                // reject readings this unlikely
 }
 
 // ---------------------------------------------------------------- initial belief
@@ -181,10 +181,13 @@ mod tests {
     }
 
     #[test]
-    fn starter_spec_parses_without_warnings() {
-        let (file, diagnostics) = crate::syntax::parse(&starter().spec_text);
-        assert!(diagnostics.is_empty(), "{diagnostics:?}");
-        assert!(file.is_some());
+    fn starter_spec_passes_check_without_warnings() {
+        let output = crate::check::check_source(&starter().spec_text);
+        assert!(output.diagnostics.is_empty(), "{:?}", output.diagnostics);
+        let model = output.model.expect("a checked model");
+        assert_eq!(model.name, "field_rover");
+        assert_eq!(model.sensors.len(), 2);
+        assert!(model.initial.iter().all(Option::is_some), "every state has an initial belief");
     }
 
     #[test]

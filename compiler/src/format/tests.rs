@@ -74,9 +74,9 @@ state {
   v : m/s
 }
 motion discrete { position = position+v*dt   heading = heading v = v }
-sensor beacon(bx:m,by : m) {
-  range:m=hypot(position-bx, by)
-  bearing :deg wrap= atan2(by , bx-position) - heading
+sensor beacon(bx:m,bn : m) {
+  range:m=hypot(position-bx, bn)
+  bearing :deg wrap= atan2(bn , bx-position) - heading
   noise~covariance[0.0625 m^2,0 m·deg;0 m·deg,4 deg^2]
 }
 sensor compass {
@@ -126,8 +126,8 @@ fn assert_guarantees(name: &str, text: &str) {
     assert_comments_kept(name, text, &once);
 }
 
-/// Both texts lower to the same checked model, or (for specs the checker rejects)
-/// to the same syntax tree, positions aside.
+/// Both texts give the same syntax tree and the same checked model (or the same
+/// diagnostics, for specs the checker rejects), positions aside.
 fn assert_same_meaning(name: &str, before: &str, after: &str) {
     let tree = |text: &str| {
         let (file, _) = crate::syntax::parse(text);
@@ -135,6 +135,12 @@ fn assert_same_meaning(name: &str, before: &str, after: &str) {
         without_spans(&format!("{:#?}", file.items))
     };
     assert_eq!(tree(before), tree(after), "{name}: the syntax tree changed");
+    let checked = |text: &str| {
+        let output = crate::check::check_source(text);
+        let codes: Vec<&str> = output.diagnostics.iter().map(|d| d.code.id).collect();
+        (without_spans(&format!("{:#?}", output.model)), codes)
+    };
+    assert_eq!(checked(before), checked(after), "{name}: the checked model changed");
 }
 
 /// Debug text with every `Span { start: .., end: .. }` replaced by `Span`, so two

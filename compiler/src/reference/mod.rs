@@ -206,3 +206,47 @@ mod tests {
         }
     }
 }
+
+/// The tutorial's spec snippets do what the tutorial says they do.
+#[cfg(test)]
+mod tutorial {
+    use super::drift::repository_root;
+
+    /// The ```reckon block right after the marker comment `<!-- tutorial:NAME -->`.
+    fn snippet(tutorial: &str, name: &str) -> String {
+        let marker = format!("<!-- tutorial:{name} -->");
+        let after = tutorial.split_once(&marker).map(|(_, rest)| rest).unwrap_or_default();
+        let body = after.split_once("```reckon\n").map(|(_, rest)| rest).unwrap_or_default();
+        body.split_once("```").map(|(code, _)| code.to_string()).unwrap_or_default()
+    }
+
+    fn read_tutorial() -> String {
+        std::fs::read_to_string(repository_root().join("docs/tutorial.md")).expect("docs/tutorial.md")
+    }
+
+    fn starter_with(snippet: &str) -> String {
+        let starter = crate::scaffold::scaffold("verge_mower").expect("valid name").spec_text;
+        format!("{}\n{snippet}", starter.replace("const track = 0.32 m", "const track = 0.48 m"))
+    }
+
+    #[test]
+    fn the_unit_error_is_reported_as_the_tutorial_shows() {
+        let tutorial = read_tutorial();
+        let output = crate::check::check_source(&starter_with(&snippet(&tutorial, "broken")));
+        let errors: Vec<_> = output.diagnostics.iter().filter(|d| d.is_error()).collect();
+        assert_eq!(errors.len(), 1, "{errors:?}");
+        let shown = format!("error[{}]: {}", errors[0].code.id, errors[0].message);
+        assert!(tutorial.contains(&shown), "the tutorial should show `{shown}`");
+    }
+
+    #[test]
+    fn the_fixed_spec_checks_clean_and_is_formatted() {
+        let tutorial = read_tutorial();
+        let fixed = snippet(&tutorial, "fixed");
+        let spec = starter_with(&fixed);
+        let output = crate::check::check_source(&spec);
+        assert!(output.diagnostics.is_empty(), "{:?}", output.diagnostics);
+        assert_eq!(output.model.map(|m| m.sensors.len()), Some(3));
+        assert_eq!(crate::format::format_source(&spec).ok(), Some(spec));
+    }
+}

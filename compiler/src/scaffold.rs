@@ -57,7 +57,9 @@ pub fn scaffold(name: &str) -> Result<Scaffold, Diagnostic> {
                       [build-dependencies]\n\
                       reckon = \"0.1\"           # or { path = \"../reckon/compiler\" }\n"
             .to_string(),
-        include_line: format!("mod {name} {{\n    include!(concat!(env!(\"OUT_DIR\"), \"/{name}.rs\"));\n}}\n"),
+        include_line: format!(
+            "mod {name} {{\n    include!(concat!(env!(\"OUT_DIR\"), \"/{name}.rs\"));\n}}\n"
+        ),
         spec_path,
     })
 }
@@ -77,7 +79,9 @@ fn check_name(name: &str) -> Result<(), Diagnostic> {
         Span::new(0, name.len()),
         format!("`{name}` cannot name a model"),
     )
-    .with_label_message("the name becomes the model's name, the spec's file name and the module's name")
+    .with_label_message(
+        "the name becomes the model's name, the spec's file name and the module's name",
+    )
     .with_hint(
         "use letters, digits and `_`, starting with a letter, and not a keyword such as `model` \
          or `state`: for example `field_rover`",
@@ -187,13 +191,19 @@ mod tests {
         let model = output.model.expect("a checked model");
         assert_eq!(model.name, "field_rover");
         assert_eq!(model.sensors.len(), 2);
-        assert!(model.initial.iter().all(Option::is_some), "every state has an initial belief");
+        assert!(
+            model.initial.iter().all(Option::is_some),
+            "every state has an initial belief"
+        );
     }
 
     #[test]
     fn starter_spec_is_already_formatted() {
         let spec = starter().spec_text;
-        assert_eq!(crate::format::format_source(&spec).ok().as_deref(), Some(spec.as_str()));
+        assert_eq!(
+            crate::format::format_source(&spec).ok().as_deref(),
+            Some(spec.as_str())
+        );
     }
 
     #[test]
@@ -214,18 +224,28 @@ mod tests {
                 crate::syntax::ast::Item::Initial(_) => "initial",
             })
             .collect();
-        for section in ["model", "const", "state", "input", "motion", "process", "sensor", "initial"] {
+        for section in [
+            "model", "const", "state", "input", "motion", "process", "sensor", "initial",
+        ] {
             assert!(kinds.contains(&section), "no {section} section");
         }
-        assert!(file.items.iter().all(|item| {
-            let before = &starter().spec_text[..item.span().start];
-            before.trim_end().lines().last().is_some_and(|l| l.trim_start().starts_with("//"))
-        }), "every section is introduced by a comment");
+        assert!(
+            file.items.iter().all(|item| {
+                let before = &starter().spec_text[..item.span().start];
+                before
+                    .trim_end()
+                    .lines()
+                    .last()
+                    .is_some_and(|l| l.trim_start().starts_with("//"))
+            }),
+            "every section is introduced by a comment"
+        );
     }
 
     #[test]
     fn the_toml_entry_is_a_valid_project_file() {
-        let project = crate::project::parse_project(&starter().toml_entry).expect("valid reckon.toml");
+        let project =
+            crate::project::parse_project(&starter().toml_entry).expect("valid reckon.toml");
         let entry = &project.estimators[0];
         assert_eq!(entry.spec.to_str(), Some("specs/field_rover.reckon"));
         assert_eq!(entry.output.to_str(), Some("src/field_rover.rs"));
@@ -237,7 +257,9 @@ mod tests {
         let s = starter();
         assert_eq!(s.spec_path, "specs/field_rover.reckon");
         assert!(s.spec_text.contains("model field_rover\n"));
-        assert!(s.build_rs.contains("compile_spec(\"specs/field_rover.reckon\")"));
+        assert!(s
+            .build_rs
+            .contains("compile_spec(\"specs/field_rover.reckon\")"));
         assert!(s.include_line.contains("\"/field_rover.rs\""));
         assert!(s.cargo_lines.contains("reckon-runtime"));
         let manifest: toml::Table = toml::from_str(&s.cargo_lines).expect("Cargo lines are TOML");

@@ -100,7 +100,11 @@ impl Printer<'_> {
         match item {
             Item::Model(m) => self.statement(m.span, 0, format!("model {}", m.name.name), None),
             Item::Const(c) => {
-                let code = format!("const {} = {}", c.name.name, print::expr(self.source, &c.value));
+                let code = format!(
+                    "const {} = {}",
+                    c.name.name,
+                    print::expr(self.source, &c.value)
+                );
                 self.statement(c.span, 0, code, None);
             }
             Item::State(block) => {
@@ -116,7 +120,13 @@ impl Printer<'_> {
                 let lhs: Vec<String> = block
                     .equations
                     .iter()
-                    .map(|eq| format!("{}{}", eq.target.name, if eq.prime.is_some() { "'" } else { "" }))
+                    .map(|eq| {
+                        format!(
+                            "{}{}",
+                            eq.target.name,
+                            if eq.prime.is_some() { "'" } else { "" }
+                        )
+                    })
                     .collect();
                 let width = widest(lhs.iter());
                 let rows = block
@@ -152,7 +162,11 @@ impl Printer<'_> {
 
     fn state_rows(&self, block: &crate::syntax::ast::StateBlock) -> Vec<Row> {
         let source = self.source;
-        let units: Vec<String> = block.vars.iter().map(|v| print::unit(source, &v.unit)).collect();
+        let units: Vec<String> = block
+            .vars
+            .iter()
+            .map(|v| print::unit(source, &v.unit))
+            .collect();
         let suffixes: Vec<String> = block
             .vars
             .iter()
@@ -176,7 +190,13 @@ impl Printer<'_> {
             })
             .collect();
         let names = widest(block.vars.iter().map(|v| &v.name.name));
-        let unit_width = widest(units.iter().zip(&suffixes).filter(|(_, s)| !s.is_empty()).map(|(u, _)| u));
+        let unit_width = widest(
+            units
+                .iter()
+                .zip(&suffixes)
+                .filter(|(_, s)| !s.is_empty())
+                .map(|(u, _)| u),
+        );
         block
             .vars
             .iter()
@@ -190,14 +210,28 @@ impl Printer<'_> {
 
     fn input_rows(&self, block: &crate::syntax::ast::InputBlock) -> Vec<Row> {
         let source = self.source;
-        let units: Vec<String> = block.vars.iter().map(|v| print::unit(source, &v.unit)).collect();
+        let units: Vec<String> = block
+            .vars
+            .iter()
+            .map(|v| print::unit(source, &v.unit))
+            .collect();
         let noises: Vec<String> = block
             .vars
             .iter()
-            .map(|v| v.noise.as_ref().map_or(String::new(), |d| format!("~ {}", print::dist(source, d))))
+            .map(|v| {
+                v.noise
+                    .as_ref()
+                    .map_or(String::new(), |d| format!("~ {}", print::dist(source, d)))
+            })
             .collect();
         let names = widest(block.vars.iter().map(|v| &v.name.name));
-        let unit_width = widest(units.iter().zip(&noises).filter(|(_, n)| !n.is_empty()).map(|(u, _)| u));
+        let unit_width = widest(
+            units
+                .iter()
+                .zip(&noises)
+                .filter(|(_, n)| !n.is_empty())
+                .map(|(u, _)| u),
+        );
         block
             .vars
             .iter()
@@ -216,7 +250,11 @@ impl Printer<'_> {
             .iter()
             .map(|stmt| Row {
                 span: stmt.span,
-                code: format!("{} ~ {}", pad(&stmt.target.name, names), print::dist(self.source, &stmt.dist)),
+                code: format!(
+                    "{} ~ {}",
+                    pad(&stmt.target.name, names),
+                    print::dist(self.source, &stmt.dist)
+                ),
             })
             .collect()
     }
@@ -245,14 +283,25 @@ impl Printer<'_> {
                 SensorItem::Gate(_) => None,
             }
         };
-        let names = widest(sensor.items.iter().filter_map(name_of).collect::<Vec<_>>().iter());
+        let names = widest(
+            sensor
+                .items
+                .iter()
+                .filter_map(name_of)
+                .collect::<Vec<_>>()
+                .iter(),
+        );
         let typed_units: Vec<Option<String>> = sensor
             .items
             .iter()
             .map(|item| match item {
                 SensorItem::Component(c) => {
                     let unit = print::unit(source, &c.unit);
-                    Some(if c.wrap.is_some() { format!("{unit} wrap") } else { unit })
+                    Some(if c.wrap.is_some() {
+                        format!("{unit} wrap")
+                    } else {
+                        unit
+                    })
                 }
                 _ => None,
             })
@@ -275,7 +324,11 @@ impl Printer<'_> {
                 },
                 SensorItem::ComponentNoise(n) => Row {
                     span: n.span,
-                    code: format!("{} ~ {}", pad(&n.target.name, names), print::dist(source, &n.dist)),
+                    code: format!(
+                        "{} ~ {}",
+                        pad(&n.target.name, names),
+                        print::dist(source, &n.dist)
+                    ),
                 },
                 SensorItem::SharedNoise(n) => {
                     let noise = match &n.kind {
@@ -307,7 +360,12 @@ impl Printer<'_> {
             self.statement(span, 0, format!("{header} {{}}"), None);
             return;
         }
-        self.statement(Span::new(span.start, open + 1), 0, format!("{header} {{"), None);
+        self.statement(
+            Span::new(span.start, open + 1),
+            0,
+            format!("{header} {{"),
+            None,
+        );
         if let Some(Line::Text { opens_block, .. }) = self.lines.last_mut() {
             *opens_block = true;
         }
@@ -374,7 +432,10 @@ impl Printer<'_> {
     /// Keeps one blank line where the author left at least one since the last
     /// placed text, except at the start of the file or of a block.
     fn blank_if_source_has_one(&mut self, next_start: usize) {
-        let gap = self.source.get(self.last_end..next_start).unwrap_or_default();
+        let gap = self
+            .source
+            .get(self.last_end..next_start)
+            .unwrap_or_default();
         let mut pieces: Vec<&str> = gap.split('\n').collect();
         pieces.pop();
         let has_blank = pieces.iter().skip(1).any(|piece| piece.trim().is_empty());
@@ -386,7 +447,11 @@ impl Printer<'_> {
     /// A blank line, unless one is already there or nothing precedes it.
     fn blank(&mut self) {
         match self.lines.last() {
-            None | Some(Line::Blank) | Some(Line::Text { opens_block: true, .. }) => {}
+            None
+            | Some(Line::Blank)
+            | Some(Line::Text {
+                opens_block: true, ..
+            }) => {}
             Some(Line::Text { .. }) => self.lines.push(Line::Blank),
         }
     }
@@ -440,7 +505,11 @@ fn typed(name: &str, name_width: usize, unit: &str, unit_width: usize, rest: &st
     if rest.is_empty() {
         format!("{} : {unit}", pad(name, name_width))
     } else {
-        format!("{} : {} {rest}", pad(name, name_width), pad(unit, unit_width))
+        format!(
+            "{} : {} {rest}",
+            pad(name, name_width),
+            pad(unit, unit_width)
+        )
     }
 }
 

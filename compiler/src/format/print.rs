@@ -5,15 +5,22 @@
 //! included, since the AST keeps them), changing only the blanks between tokens. The
 //! grammar ignores blanks between tokens, so the text re-parses to the same tree.
 
-use crate::syntax::ast::{BinOp, CovarianceExpr, DistArg, DistExpr, Expr, ExprKind, Unit, UnitKind};
+use crate::syntax::ast::{
+    BinOp, CovarianceExpr, DistArg, DistExpr, Expr, ExprKind, Unit, UnitKind,
+};
 
 /// A unit exactly as written, minus blanks and comments: `m / s` becomes `m/s`, but
 /// `N·m`, `s^(-2)` and `Hz^(1/2)` keep their spelling. Removing every blank is safe
 /// because unit grammar has no juxtaposition: two symbols always have an operator
 /// between them.
 pub fn unit(source: &str, unit: &Unit) -> String {
-    let text = source.get(unit.span.start..unit.span.end).unwrap_or_default();
-    without_comments(text).chars().filter(|c| !c.is_whitespace()).collect()
+    let text = source
+        .get(unit.span.start..unit.span.end)
+        .unwrap_or_default();
+    without_comments(text)
+        .chars()
+        .filter(|c| !c.is_whitespace())
+        .collect()
 }
 
 /// `text` with every `//` comment removed (up to, not including, its line break).
@@ -44,7 +51,12 @@ pub fn expr(source: &str, e: &Expr) -> String {
             format!("{}^{}", expr(source, base), expr(source, exponent))
         }
         ExprKind::Binary(op, lhs, rhs) => {
-            format!("{} {} {}", expr(source, lhs), op.symbol(), expr(source, rhs))
+            format!(
+                "{} {} {}",
+                expr(source, lhs),
+                op.symbol(),
+                expr(source, rhs)
+            )
         }
         ExprKind::Call(func, args) => format!("{}({})", func.name, list(source, args)),
         ExprKind::Paren(inner) => format!("({})", expr(source, inner)),
@@ -66,7 +78,9 @@ pub fn dist(source: &str, d: &DistExpr) -> String {
         .iter()
         .map(|arg| match arg {
             DistArg::Value(e) => expr(source, e),
-            DistArg::Range { lo, hi, .. } => format!("{} .. {}", expr(source, lo), expr(source, hi)),
+            DistArg::Range { lo, hi, .. } => {
+                format!("{} .. {}", expr(source, lo), expr(source, hi))
+            }
         })
         .collect();
     format!("{}({})", d.name.name, args.join(", "))
@@ -105,7 +119,10 @@ mod tests {
     fn numbers_and_units_keep_their_spelling() {
         assert_eq!(const_text("const c = 1_000.50   km"), "1_000.50 km");
         assert_eq!(const_text("const c = 3 N·m"), "3 N·m");
-        assert_eq!(const_text("const c = 4 deg / h / sqrt( h )"), "4 deg/h/sqrt(h)");
+        assert_eq!(
+            const_text("const c = 4 deg / h / sqrt( h )"),
+            "4 deg/h/sqrt(h)"
+        );
         assert_eq!(const_text("const c = 1 s^( -2 )"), "1 s^(-2)");
         assert_eq!(const_text("const c = 99.9%"), "99.9 %");
         assert_eq!(const_text("const c = 2E-3 µs"), "2E-3 µs");

@@ -112,7 +112,10 @@ fn a_file_that_does_not_parse_is_refused_with_its_diagnostics() {
 fn empty_and_comment_only_files() {
     assert_eq!(formatted(""), "");
     assert_eq!(formatted("\n\n   \n"), "");
-    assert_eq!(formatted("  // only a note   \n\n\n// and another\n"), "// only a note\n\n// and another\n");
+    assert_eq!(
+        formatted("  // only a note   \n\n\n// and another\n"),
+        "// only a note\n\n// and another\n"
+    );
 }
 
 // ------------------------------------------------------------------ guarantees
@@ -140,7 +143,11 @@ fn assert_same_meaning(name: &str, before: &str, after: &str) {
         let codes: Vec<&str> = output.diagnostics.iter().map(|d| d.code.id).collect();
         (without_spans(&format!("{:#?}", output.model)), codes)
     };
-    assert_eq!(checked(before), checked(after), "{name}: the checked model changed");
+    assert_eq!(
+        checked(before),
+        checked(after),
+        "{name}: the checked model changed"
+    );
 }
 
 /// Debug text with every `Span { start: .., end: .. }` replaced by `Span`, so two
@@ -163,7 +170,11 @@ fn assert_comments_kept(name: &str, before: &str, after: &str) {
     let Some(file) = file else { return };
     let mut from = 0;
     for comment in &file.comments {
-        let slashes = if comment.kind == CommentKind::Doc { "///" } else { "//" };
+        let slashes = if comment.kind == CommentKind::Doc {
+            "///"
+        } else {
+            "//"
+        };
         let text = format!("{slashes}{}", comment.text.trim_end());
         match after[from..].find(&text) {
             Some(at) => from += at + text.len(),
@@ -174,7 +185,11 @@ fn assert_comments_kept(name: &str, before: &str, after: &str) {
 
 #[test]
 fn golden_inputs_keep_the_guarantees() {
-    for (name, text) in [("crammed", CRAMMED), ("commented", COMMENTED), ("alignment", ALIGNMENT)] {
+    for (name, text) in [
+        ("crammed", CRAMMED),
+        ("commented", COMMENTED),
+        ("alignment", ALIGNMENT),
+    ] {
         assert_guarantees(name, text);
     }
 }
@@ -185,7 +200,9 @@ fn corpus() -> Vec<PathBuf> {
     let mut found = Vec::new();
     let mut folders = vec![root.join("specs"), root.join("tests").join("ui")];
     while let Some(folder) = folders.pop() {
-        let Ok(entries) = std::fs::read_dir(&folder) else { continue };
+        let Ok(entries) = std::fs::read_dir(&folder) else {
+            continue;
+        };
         for entry in entries.flatten() {
             let path = entry.path();
             if path.is_dir() {

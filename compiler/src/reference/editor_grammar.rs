@@ -23,7 +23,11 @@ fn patterns(node: &serde_json::Value, scopes: &mut Vec<String>, out: &mut Vec<(S
                 .into_iter()
                 .collect();
             if let Some(captures) = map.get("captures").and_then(|c| c.as_object()) {
-                names.extend(captures.values().filter_map(|c| c.get("name")?.as_str().map(String::from)));
+                names.extend(
+                    captures
+                        .values()
+                        .filter_map(|c| c.get("name")?.as_str().map(String::from)),
+                );
             }
             if let Some(regex) = map.get("match").and_then(|m| m.as_str()) {
                 let mut all = scopes.clone();
@@ -73,8 +77,9 @@ fn assert_highlighted(all: &[(String, String)], word: &str, scope: &str) {
 }
 
 fn grammar_patterns() -> Vec<(String, String)> {
-    let json: serde_json::Value = serde_json::from_str(&read("editors/textmate/reckon.tmLanguage.json"))
-        .expect("the editor grammar is valid JSON");
+    let json: serde_json::Value =
+        serde_json::from_str(&read("editors/textmate/reckon.tmLanguage.json"))
+            .expect("the editor grammar is valid JSON");
     assert_eq!(json["scopeName"], "source.reckon");
     assert_eq!(json["fileTypes"][0], "reckon");
     let mut out = Vec::new();
@@ -104,14 +109,20 @@ fn every_pest_keyword_is_highlighted() {
     let all = grammar_patterns();
     let keywords = pest_keywords();
     for expected in ["model", "sensor", "covariance", "continuous", "by"] {
-        assert!(keywords.contains(expected), "keyword extraction missed `{expected}`: {keywords:?}");
+        assert!(
+            keywords.contains(expected),
+            "keyword extraction missed `{expected}`: {keywords:?}"
+        );
     }
     for keyword in &keywords {
         let scoped = all.iter().any(|(regex, scopes)| {
             (scopes.contains("keyword") || scopes.contains("storage"))
                 && literal_words(regex).contains(keyword.as_str())
         });
-        assert!(scoped, "keyword `{keyword}` is not highlighted as a keyword");
+        assert!(
+            scoped,
+            "keyword `{keyword}` is not highlighted as a keyword"
+        );
     }
 }
 
@@ -136,7 +147,11 @@ fn every_distribution_is_highlighted() {
 #[test]
 fn comments_numbers_and_units_have_scopes() {
     let all = grammar_patterns();
-    let scopes: String = all.iter().map(|(_, s)| s.as_str()).collect::<Vec<_>>().join(" ");
+    let scopes: String = all
+        .iter()
+        .map(|(_, s)| s.as_str())
+        .collect::<Vec<_>>()
+        .join(" ");
     for scope in [
         "comment.line.documentation",
         "comment.line.double-slash",

@@ -21,9 +21,9 @@ pub fn units_markdown() -> String {
          <!-- Generated from the unit catalogue (`reckon::units::catalogue()`); do not edit.\n     \
          Regenerate with `RECKON_BLESS=1 cargo test -p reckon --lib reference`. -->\n\n\
          Every number in a spec carries one of these units, or a product, quotient or power of\n\
-         them (`m/s^2`, `deg/h/sqrt(h)`, `Hz^(1/2)`). Symbols are case-sensitive. Factors are\n\
-         exact: the checker converts with the exact rational (times a power of pi), never with\n\
-         a rounded decimal.\n\n\
+         them (`m/s^2`, `deg/h/sqrt(h)`, `Hz^(1/2)`). Symbols are case-sensitive. Sizes are\n\
+         exact: the checker combines units as exact fractions times powers of pi and rounds\n\
+         to floating point once, at the end.\n\n\
          How a symbol is read: a symbol in the table is that unit (`min` is the minute, `mi`\n\
          the mile, `G` the gauss); otherwise it is one SI prefix followed by a unit marked\n\
          *prefixes: yes* (`km`, `ms`, `µs` or `us`, `hPa`, `mbar`, `kg`). Only one prefix.\n\n\
@@ -34,7 +34,12 @@ pub fn units_markdown() -> String {
         let _ = writeln!(
             out,
             "| {} | {} | {} | {} | {} | {} |",
-            entry.symbols.iter().map(|s| format!("`{s}`")).collect::<Vec<_>>().join(", "),
+            entry
+                .symbols
+                .iter()
+                .map(|s| format!("`{s}`"))
+                .collect::<Vec<_>>()
+                .join(", "),
             entry.name,
             entry.definition,
             size_in_si(entry),
@@ -54,7 +59,12 @@ pub fn units_markdown() -> String {
         let _ = writeln!(
             out,
             "| {} | {} | 10^{} |",
-            prefix.symbols.iter().map(|s| format!("`{s}`")).collect::<Vec<_>>().join(", "),
+            prefix
+                .symbols
+                .iter()
+                .map(|s| format!("`{s}`"))
+                .collect::<Vec<_>>()
+                .join(", "),
             prefix.name,
             prefix.power_of_ten,
         );
@@ -193,7 +203,11 @@ mod tests {
                 .to_string()
         };
         assert!(row("h").contains("`3600 s`"), "{}", row("h"));
-        assert!(row("ft").contains("0.3048") || row("ft").contains("381/1250"), "{}", row("ft"));
+        assert!(
+            row("ft").contains("0.3048") || row("ft").contains("381/1250"),
+            "{}",
+            row("ft")
+        );
         assert!(row("deg").contains("pi"), "{}", row("deg"));
     }
 
@@ -215,18 +229,32 @@ mod tutorial {
     /// The ```reckon block right after the marker comment `<!-- tutorial:NAME -->`.
     fn snippet(tutorial: &str, name: &str) -> String {
         let marker = format!("<!-- tutorial:{name} -->");
-        let after = tutorial.split_once(&marker).map(|(_, rest)| rest).unwrap_or_default();
-        let body = after.split_once("```reckon\n").map(|(_, rest)| rest).unwrap_or_default();
-        body.split_once("```").map(|(code, _)| code.to_string()).unwrap_or_default()
+        let after = tutorial
+            .split_once(&marker)
+            .map(|(_, rest)| rest)
+            .unwrap_or_default();
+        let body = after
+            .split_once("```reckon\n")
+            .map(|(_, rest)| rest)
+            .unwrap_or_default();
+        body.split_once("```")
+            .map(|(code, _)| code.to_string())
+            .unwrap_or_default()
     }
 
     fn read_tutorial() -> String {
-        std::fs::read_to_string(repository_root().join("docs/tutorial.md")).expect("docs/tutorial.md")
+        std::fs::read_to_string(repository_root().join("docs/tutorial.md"))
+            .expect("docs/tutorial.md")
     }
 
     fn starter_with(snippet: &str) -> String {
-        let starter = crate::scaffold::scaffold("verge_mower").expect("valid name").spec_text;
-        format!("{}\n{snippet}", starter.replace("const track = 0.32 m", "const track = 0.48 m"))
+        let starter = crate::scaffold::scaffold("verge_mower")
+            .expect("valid name")
+            .spec_text;
+        format!(
+            "{}\n{snippet}",
+            starter.replace("const track = 0.32 m", "const track = 0.48 m")
+        )
     }
 
     #[test]
@@ -236,7 +264,10 @@ mod tutorial {
         let errors: Vec<_> = output.diagnostics.iter().filter(|d| d.is_error()).collect();
         assert_eq!(errors.len(), 1, "{errors:?}");
         let shown = format!("error[{}]: {}", errors[0].code.id, errors[0].message);
-        assert!(tutorial.contains(&shown), "the tutorial should show `{shown}`");
+        assert!(
+            tutorial.contains(&shown),
+            "the tutorial should show `{shown}`"
+        );
     }
 
     #[test]

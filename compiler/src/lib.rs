@@ -7,9 +7,11 @@
 //! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
 
 pub mod back;
+pub mod build;
 pub mod check;
 pub mod diag;
 pub mod format;
+pub mod ir;
 pub mod model;
 pub mod options;
 pub mod project;

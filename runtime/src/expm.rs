@@ -91,7 +91,7 @@ where
             )
         }
     };
-    let scaled = a * lit::<T>(0.5_f64.powi(squarings as i32));
+    let scaled = a * lit::<T>(0.5).powi(squarings as i32);
     let (u, v) = pade_terms(&scaled, degree);
     let denominator = &v - &u;
     let numerator = v + u;

@@ -940,4 +940,65 @@ mod tests {
             proptest::prop_assert!((a.nis - b.nis).abs() <= 1e-8 * (1.0 + a.nis));
         }
     }
+
+    #[test]
+    fn gate_compares_nis_with_the_callers_quantile() {
+        // Chi-square upper critical value, 1 degree of freedom, 0.95: 3.841
+        // (NIST/SEMATECH e-Handbook, sec. 1.3.6.7.4). With P = R = 1 the innovation
+        // variance is 2, so NIS = residual^2 / 2.
+        let model = RandomConstant { q: 0.0, r: 1.0 };
+        let gate = Some(3.841);
+        let mut filter = KalmanFilter::new(Vector1::new(0.0), Matrix1::new(1.0)).unwrap();
+        let inside = filter
+            .clone()
+            .correct(&model, &Vector1::new((2.0_f64 * 3.8).sqrt()), &(), gate)
+            .unwrap();
+        assert!((inside.nis - 3.8).abs() < 1e-12);
+        match filter.correct(&model, &Vector1::new(-(2.0_f64 * 3.9).sqrt()), &(), gate) {
+            Err(CorrectError::Gated { nis }) => assert!((nis - 3.9).abs() < 1e-12),
+            other => panic!("expected a gated reading, got {other:?}"),
+        }
+        assert_eq!(filter.health().gated, 1);
+        assert_eq!(filter.health().corrections, 0);
+    }
+
+    #[test]
+    fn variance_limits_hold_and_are_counted() {
+        let model = ConstantVelocity { q: 1e-6, r: 1e-4 };
+        let mut filter = KalmanFilter::new(Vector2::new(0.0, 0.0), Matrix2::identity()).unwrap();
+        let floor = Vector2::new(1e-3, 1e-3);
+        let ceiling = Vector2::new(50.0, 2.0);
+        filter
+            .set_limits(CovarianceLimits {
+                floor: Some(floor),
+                ceiling: Some(ceiling),
+            })
+            .unwrap();
+        // Precise readings drive the position variance below its floor.
+        for _ in 0..50 {
+            filter.predict(&model, &no_input(), 0.1).unwrap();
+            filter
+                .correct(&model, &Vector1::new(0.0), &(), None)
+                .unwrap();
+            let p = filter.covariance();
+            assert!(p[(0, 0)] >= floor[0] && p[(1, 1)] >= floor[1]);
+        }
+        assert!(filter.health().floor_clamps > 0);
+        // Predictions alone make the variances grow until the ceilings hold them.
+        let loose = ConstantVelocity { q: 1.0, r: 1.0 };
+        for _ in 0..50 {
+            filter.predict(&loose, &no_input(), 1.0).unwrap();
+            let p = filter.covariance();
+            assert!(p[(0, 0)] <= ceiling[0] && p[(1, 1)] <= ceiling[1]);
+            assert!(crate::linalg::is_positive_definite(p));
+        }
+        assert!(filter.health().ceiling_clamps > 0);
+        assert_eq!(
+            filter.set_limits(CovarianceLimits {
+                floor: Some(Vector2::new(-1.0, 0.0)),
+                ceiling: None
+            }),
+            Err(InitError::NegativeVariance)
+        );
+    }
 }

@@ -43,12 +43,11 @@ pub fn scaffold(name: &str) -> Result<Scaffold, Diagnostic> {
              integrator = \"auto\"     # auto, euler or rk4\n"
         ),
         build_rs: format!(
-            "// build.rs: regenerate the estimator whenever the spec changes.\n\
+            "// build.rs: regenerates the estimator into OUT_DIR whenever the spec changes.\n\
              fn main() {{\n    \
-                 let generated = reckon::build::compile_spec(\"{spec_path}\")\n        \
-                     .unwrap_or_else(|error| panic!(\"{{error}}\"));\n    \
-                 println!(\"cargo:rerun-if-changed={spec_path}\");\n    \
-                 println!(\"cargo:rerun-if-changed={{}}\", generated.display());\n\
+                 // Extended Kalman filter in f64. For other options:\n    \
+                 // reckon::build::Builder::new().scalar(reckon::build::Scalar::F32).compile(&[\"{spec_path}\"])\n    \
+                 reckon::build::compile_spec(\"{spec_path}\").unwrap();\n\
              }}\n"
         ),
         cargo_lines: "[dependencies]\n\
@@ -274,5 +273,67 @@ mod tests {
             assert!(error.hint.is_some());
         }
         assert!(scaffold("_rover2").is_ok());
+    }
+
+    /// A firmware-like crate made only of what `reckon new` prints: the spec, the
+    /// build script, the dependency lines (pointed at this repository) and the
+    /// `include!`. It must build, and its estimator must run a predict/correct cycle.
+    #[test]
+    #[ignore = "slow: compiles reckon as a build dependency; run with --ignored"]
+    fn starter_builds_and_runs_through_a_build_script() {
+        let s = starter();
+        let repository = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+        let repository = repository.canonicalize().expect("repository folder");
+        let crate_dir = std::env::temp_dir().join(format!("reckon-starter-{}", std::process::id()));
+        std::fs::create_dir_all(crate_dir.join("specs")).expect("temporary crate");
+        std::fs::create_dir_all(crate_dir.join("src")).expect("temporary crate");
+
+        let mut manifest: toml::Table = toml::from_str(&s.cargo_lines).expect("Cargo lines are TOML");
+        let local = |folder: &str| {
+            let mut table = toml::Table::new();
+            table.insert("path".into(), repository.join(folder).display().to_string().into());
+            toml::Value::Table(table)
+        };
+        manifest["dependencies"]["reckon-runtime"] = local("runtime");
+        manifest["build-dependencies"]["reckon"] = local("compiler");
+        let package = "[package]\nname = \"starter_firmware\"\nversion = \"0.1.0\"\nedition = \"2021\"\n\n[workspace]\n\n";
+        let files = [
+            ("Cargo.toml", format!("{package}{manifest}")),
+            (s.spec_path.as_str(), s.spec_text.clone()),
+            ("build.rs", s.build_rs.clone()),
+            (
+                "src/main.rs",
+                format!(
+                    "{}\nfn main() {{\n\
+                     let mut estimator = field_rover::Estimator::new().expect(\"initial belief\");\n\
+                     estimator.predict(&field_rover::Input {{ accel: 0.2 }}, 0.01).expect(\"predict\");\n\
+                     estimator.correct_wheels(&field_rover::WheelsReading {{ v_left: 0.1, v_right: 0.12 }}).expect(\"wheels\");\n\
+                     estimator.correct_position_fix(&field_rover::PositionFixReading {{ fix_east: 0.5, fix_north: -0.3 }}).expect(\"fix\");\n\
+                     let state = estimator.state();\n\
+                     assert!(state.speed > 0.0 && state.east > 0.0, \"{{state:?}}\");\n\
+                     println!(\"ok\");\n}}\n",
+                    s.include_line
+                ),
+            ),
+        ];
+        for (name, text) in &files {
+            std::fs::write(crate_dir.join(name), text).expect("write the temporary crate");
+        }
+        // The workspace's lock file pins the same dependency versions, so the build
+        // works offline and reuses compiled dependencies.
+        std::fs::copy(repository.join("Cargo.lock"), crate_dir.join("Cargo.lock")).expect("lock file");
+        let output = std::process::Command::new(env!("CARGO"))
+            .args(["run", "--offline", "--quiet"])
+            .current_dir(&crate_dir)
+            .env("CARGO_TARGET_DIR", repository.join("target").join("starter-crate"))
+            .output()
+            .expect("cargo runs");
+        let stdout = String::from_utf8_lossy(&output.stdout);
+        assert!(
+            output.status.success() && stdout.trim() == "ok",
+            "{stdout}\n{}",
+            String::from_utf8_lossy(&output.stderr)
+        );
+        let _ = std::fs::remove_dir_all(&crate_dir);
     }
 }

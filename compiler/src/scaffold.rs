@@ -288,10 +288,14 @@ mod tests {
         std::fs::create_dir_all(crate_dir.join("specs")).expect("temporary crate");
         std::fs::create_dir_all(crate_dir.join("src")).expect("temporary crate");
 
-        let mut manifest: toml::Table = toml::from_str(&s.cargo_lines).expect("Cargo lines are TOML");
+        let mut manifest: toml::Table =
+            toml::from_str(&s.cargo_lines).expect("Cargo lines are TOML");
         let local = |folder: &str| {
             let mut table = toml::Table::new();
-            table.insert("path".into(), repository.join(folder).display().to_string().into());
+            table.insert(
+                "path".into(),
+                repository.join(folder).display().to_string().into(),
+            );
             toml::Value::Table(table)
         };
         manifest["dependencies"]["reckon-runtime"] = local("runtime");
@@ -321,11 +325,15 @@ mod tests {
         }
         // The workspace's lock file pins the same dependency versions, so the build
         // works offline and reuses compiled dependencies.
-        std::fs::copy(repository.join("Cargo.lock"), crate_dir.join("Cargo.lock")).expect("lock file");
+        std::fs::copy(repository.join("Cargo.lock"), crate_dir.join("Cargo.lock"))
+            .expect("lock file");
         let output = std::process::Command::new(env!("CARGO"))
             .args(["run", "--offline", "--quiet"])
             .current_dir(&crate_dir)
-            .env("CARGO_TARGET_DIR", repository.join("target").join("starter-crate"))
+            .env(
+                "CARGO_TARGET_DIR",
+                repository.join("target").join("starter-crate"),
+            )
             .output()
             .expect("cargo runs");
         let stdout = String::from_utf8_lossy(&output.stdout);

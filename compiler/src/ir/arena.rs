@@ -19,7 +19,10 @@
 //!   operands (`inf * 0` and `0 / 0` are NaN): derivatives are full of zero factors,
 //!   and a Jacobian entry that is structurally zero must be exactly zero, not NaN
 //!   wherever some unrelated factor overflows.
-//! - zeros produced by these rules may lose their sign (`-0.0 + 0.0` is `+0.0`).
+//! - zeros produced by these rules may lose their sign (`-0.0 + 0.0` is `+0.0`,
+//!   `x * 0` is `+0.0` for negative `x`). Values stay equal as numbers; the one
+//!   visible effect is `atan2(±0, negative)`, which gives `pi` or `-pi`, the two
+//!   representations of one angle (both wrap to `pi`).
 //!
 //! Operands of `+` and `*` are put in handle order before interning, so `a + b` and
 //! `b + a` are one node (IEEE `+` and `*` commute exactly). Nothing is reassociated:
@@ -313,7 +316,24 @@ impl Arena {
 
 #[cfg(test)]
 mod tests {
+    use super::super::eval::{Bindings, Evaluator};
+    use super::super::test_trees::{build, eval_direct, tree};
     use super::*;
+    use proptest::prelude::*;
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 1000, ..ProptestConfig::default() })]
+        #[test]
+        fn simplification_never_changes_a_finite_value(t in tree(), x0 in -2.0f64..2.0, x1 in -2.0f64..2.0) {
+            let direct = eval_direct(&t, [x0, x1]);
+            prop_assume!(direct.is_some());
+            let mut arena = Arena::new();
+            let root = build(&mut arena, &t);
+            let simplified = Evaluator::new(&arena, &[root]).eval(&Bindings::new(vec![x0, x1], vec![], 0.0))[0];
+            // Equal as numbers (a zero may change sign), bit for bit otherwise.
+            prop_assert!(direct == Some(simplified), "{:?} vs {}", direct, simplified);
+        }
+    }
 
     fn xy(arena: &mut Arena) -> (NodeId, NodeId) {
         (

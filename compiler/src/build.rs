@@ -1,11 +1,10 @@
 //! The build-script API: generating estimator modules from a crate's `build.rs`.
 //!
 //! ```no_run
-//! // build.rs of a firmware crate
-//! fn main() {
-//!     reckon::build::compile_spec("specs/rail_cart.reckon").unwrap();
-//! }
-//! // src/main.rs: mod rail_cart { include!(concat!(env!("OUT_DIR"), "/rail_cart.rs")); }
+//! // In the `main` of a firmware crate's build.rs:
+//! reckon::build::compile_spec("specs/rail_cart.reckon").unwrap();
+//! // and in its src/main.rs:
+//! // mod rail_cart { include!(concat!(env!("OUT_DIR"), "/rail_cart.rs")); }
 //! ```
 //!
 //! [`compile_spec`] is the one-call shortcut; [`Builder`] sets options, the output
@@ -22,7 +21,9 @@ use std::path::{Path, PathBuf};
 use crate::back::output;
 use crate::back::rust;
 use crate::diag::{self, Diagnostic};
-pub use crate::options::{EstimatorOptions, Integrator, Method, Scalar, UnscentedParams, UpdateForm};
+pub use crate::options::{
+    EstimatorOptions, Integrator, Method, Scalar, UnscentedParams, UpdateForm,
+};
 use crate::project;
 
 /// Generates the module for one spec into `$OUT_DIR/<model>.rs` with default options
@@ -120,13 +121,12 @@ impl Builder {
     pub fn from_project(path: impl AsRef<Path>) -> Result<Builder, BuildError> {
         let path = path.as_ref();
         let text = read(path)?;
-        let parsed = project::parse_project(&text).map_err(|diagnostic| {
-            BuildError::Diagnostics {
+        let parsed =
+            project::parse_project(&text).map_err(|diagnostic| BuildError::Diagnostics {
                 path: path.to_path_buf(),
                 text: text.clone(),
                 diagnostics: vec![diagnostic],
-            }
-        })?;
+            })?;
         let folder = path.parent().unwrap_or(Path::new(""));
         let jobs = parsed
             .estimators
@@ -247,11 +247,10 @@ impl Builder {
                 folder.join(format!("{}{}.rs", generated.report.model, self.suffix))
             }
         };
-        output::write_if_changed(&path, &generated.code)
-            .map_err(|error| BuildError::Io {
-                path: path.clone(),
-                error,
-            })?;
+        output::write_if_changed(&path, &generated.code).map_err(|error| BuildError::Io {
+            path: path.clone(),
+            error,
+        })?;
         Ok(path)
     }
 }

@@ -17,7 +17,9 @@ pub(crate) fn refuse_method(method: Method) -> Vec<Diagnostic> {
         Span::default(),
         format!("method `{}` cannot be generated yet", method.name()),
     )
-    .with_note("the method was chosen in the build options (reckon.toml, command line or build script)")
+    .with_note(
+        "the method was chosen in the build options (reckon.toml, command line or build script)",
+    )
     .with_hint("choose `kf`, `ekf` or `ukf`")]
 }
 
@@ -40,18 +42,22 @@ pub(crate) fn check(
     }
     let mut warnings = initial_beliefs(model);
     if options.update == UpdateForm::Sequential {
-        warnings.extend(model.sensors.iter().filter_map(|sensor| {
-            matches!(sensor.noise, SensorNoise::Covariance(_)).then(|| {
-                Diagnostic::new(
-                    codes::SEQUENTIAL_NEEDS_DIAGONAL_NOISE,
-                    sensor.span,
-                    format!(
-                        "sensor `{}` has correlated reading noise; it is corrected with the Joseph form",
-                        sensor.name
-                    ),
-                )
-            })
-        }));
+        warnings.extend(
+            model
+                .sensors
+                .iter()
+                .filter(|sensor| matches!(sensor.noise, SensorNoise::Covariance(_)))
+                .map(|sensor| {
+                    Diagnostic::new(
+                        codes::SEQUENTIAL_NEEDS_DIAGONAL_NOISE,
+                        sensor.span,
+                        format!(
+                            "sensor `{}` has correlated reading noise; it is corrected with the Joseph form",
+                            sensor.name
+                        ),
+                    )
+                }),
+        );
     }
     Ok(warnings)
 }
@@ -100,10 +106,7 @@ fn gaussian_noise(model: &Model) -> Vec<Diagnostic> {
                 if !distribution.is_gaussian() {
                     errors.push(refuse_distribution(
                         component.span,
-                        format!(
-                            "the reading noise of `{}.{}`",
-                            sensor.name, component.name
-                        ),
+                        format!("the reading noise of `{}.{}`", sensor.name, component.name),
                         distribution,
                     ));
                 }

@@ -46,7 +46,10 @@ impl Context<'_> {
     }
 
     fn gate_constant(&self, sensor: usize) -> Ident {
-        let name = format!("{}_GATE", self.model.sensors[sensor].name.to_ascii_uppercase());
+        let name = format!(
+            "{}_GATE",
+            self.model.sensors[sensor].name.to_ascii_uppercase()
+        );
         Ident::new(&name, proc_macro2::Span::call_site())
     }
 
@@ -362,7 +365,10 @@ fn reading_struct(ctx: &Context, index: usize) -> TokenStream {
         .components
         .iter()
         .map(|c| (c.name.as_str(), &c.doc, &c.unit, c.wrap));
-    let own = sensor.doc.as_deref().map_or(String::new(), |d| format!("{d} "));
+    let own = sensor
+        .doc
+        .as_deref()
+        .map_or(String::new(), |d| format!("{d} "));
     declared_struct(
         ctx,
         &ty,
@@ -521,7 +527,9 @@ fn dynamics_value(ctx: &Context, models: &models::Models) -> TokenStream {
             quote!(Dynamics::discretised(dt))
         }
     } else if models.dynamics_reads_tuning {
-        quote!(Dynamics { tuning: &self.tuning })
+        quote!(Dynamics {
+            tuning: &self.tuning
+        })
     } else {
         quote!(Dynamics)
     }
@@ -564,7 +572,9 @@ fn estimator(ctx: &Context, models: &models::Models) -> TokenStream {
     };
     let dynamics = dynamics_value(ctx, models);
     let predict_call = if ukf {
-        quote!(self.filter.predict_unscented(&dynamics, &input.si_vector(), dt, &WEIGHTS))
+        quote!(self
+            .filter
+            .predict_unscented(&dynamics, &input.si_vector(), dt, &WEIGHTS))
     } else {
         quote!(self.filter.predict(&dynamics, &input.si_vector(), dt))
     };
@@ -694,7 +704,11 @@ fn dynamics(ctx: &Context, models: &models::Models) -> TokenStream {
     let size = ctx.lowered.state_count;
     let n = usize_literal(size);
     let stores_tuning = models.dynamics_reads_tuning;
-    let lifetime = if stores_tuning { quote!(<'a>) } else { quote!() };
+    let lifetime = if stores_tuning {
+        quote!(<'a>)
+    } else {
+        quote!()
+    };
     let mut fields = Vec::new();
     let mut values = Vec::new();
     if stores_tuning {

@@ -51,7 +51,9 @@ fn check_golden(name: &str, actual: &str) -> Option<String> {
     }
     match std::fs::read_to_string(&path) {
         Ok(expected) if expected == actual => None,
-        Ok(_) => Some(format!("{name}: differs from the golden file (RECKON_BLESS=1 rewrites it)")),
+        Ok(_) => Some(format!(
+            "{name}: differs from the golden file (RECKON_BLESS=1 rewrites it)"
+        )),
         Err(_) => Some(format!("{name}: no golden file (run with RECKON_BLESS=1)")),
     }
 }
@@ -78,7 +80,10 @@ fn generated_modules_match_golden_files() {
         .iter()
         .filter_map(|&(name, method, scalar)| {
             let code = generated(name, &options(method, scalar)).code;
-            check_golden(&format!("{name}.{}.{}.rs", method.name(), scalar.name()), &code)
+            check_golden(
+                &format!("{name}.{}.{}.rs", method.name(), scalar.name()),
+                &code,
+            )
         })
         .collect();
     assert!(failures.is_empty(), "{}", failures.join("\n"));
@@ -147,7 +152,11 @@ fn kalman_methods_refuse_non_gaussian_noise_with_the_conversion_hint() {
 #[test]
 fn grid_and_particle_are_refused_not_faked() {
     for method in [Method::Grid, Method::Particle] {
-        let diagnostics = refused("marker_track", &spec("marker_track"), &options(method, Scalar::F64));
+        let diagnostics = refused(
+            "marker_track",
+            &spec("marker_track"),
+            &options(method, Scalar::F64),
+        );
         assert_eq!(diagnostics[0].code, codes::METHOD_NOT_AVAILABLE);
     }
 }
@@ -177,7 +186,10 @@ fn sequential_updates_fall_back_to_joseph_for_correlated_noise() {
         .expect("a warning for the transponder");
     assert!(warning.message.contains("transponder"));
     // Three sensors with independent noise update sequentially; the transponder does not.
-    assert_eq!(result.code.matches("UpdateForm::SequentialScalar").count(), 3);
+    assert_eq!(
+        result.code.matches("UpdateForm::SequentialScalar").count(),
+        3
+    );
 }
 
 #[test]

@@ -2,9 +2,10 @@
 //!
 //! Layout rules: one statement per line; two-space indentation inside blocks; within
 //! a block the `:`, `=` and `~` columns line up (names padded to the longest, units
-//! padded where something follows them); one blank line between top-level items and
-//! at most one (where the author left one) between statements; normalised spacing
-//! around operators. Numbers and unit spellings stay exactly as written.
+//! padded where something follows them); one blank line between top-level items
+//! (consecutive constants may stay grouped) and at most one (where the author left
+//! one) between statements; normalised spacing around operators. Numbers and unit
+//! spellings stay exactly as written.
 //!
 //! Comments are kept in place: a comment on its own line stays on its own line before
 //! the same statement (blank lines around it kept); a comment after code stays at the
@@ -52,8 +53,10 @@ fn layout(source: &str, file: &File) -> String {
         last_end: 0,
         groups: 0,
     };
+    let mut previous = None;
     for item in &file.items {
-        printer.item(item);
+        printer.item(item, previous);
+        previous = Some(item);
     }
     printer.leading_comments(source.len(), 0);
     printer.finish()
@@ -93,8 +96,10 @@ struct Printer<'a> {
 }
 
 impl Printer<'_> {
-    fn item(&mut self, item: &Item) {
-        if !self.lines.is_empty() {
+    fn item(&mut self, item: &Item, previous: Option<&Item>) {
+        // Consecutive constants may stay grouped; every other item gets a blank line.
+        let grouped = matches!((previous, item), (Some(Item::Const(_)), Item::Const(_)));
+        if !self.lines.is_empty() && !grouped {
             self.blank();
         }
         match item {

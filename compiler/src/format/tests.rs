@@ -127,6 +127,14 @@ fn line_breaks_and_tabs_are_normalised() {
 }
 
 #[test]
+fn consecutive_constants_may_stay_grouped() {
+    assert_eq!(
+        formatted("model a\nconst b = 1 m\n/// doc\nconst c = 2 m\n\n\nconst d = 3 m\nstate { x : m }"),
+        "model a\n\nconst b = 1 m\n/// doc\nconst c = 2 m\n\nconst d = 3 m\n\nstate {\n  x : m\n}\n"
+    );
+}
+
+#[test]
 fn warnings_do_not_stop_formatting() {
     // A doc comment above a block header documents nothing (a warning); it is kept.
     assert_eq!(

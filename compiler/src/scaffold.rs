@@ -26,7 +26,8 @@ pub struct Scaffold {
 }
 
 /// The starter files for a model called `name`. The name must be a spec identifier
-/// (letters, digits and `_`, not starting with a digit, not a keyword), since it names
+/// (letters, digits and `_`, not starting with a digit) and not a keyword of the spec
+/// language or of Rust, since it names
 /// the model, the spec file and the generated module.
 pub fn scaffold(name: &str) -> Result<Scaffold, Diagnostic> {
     check_name(name)?;
@@ -63,14 +64,24 @@ pub fn scaffold(name: &str) -> Result<Scaffold, Diagnostic> {
     })
 }
 
-/// Accepts exactly the names the spec grammar accepts after `model`, by asking the
-/// parser, so the rule lives in one place.
+/// Rust's strict and reserved keywords (Rust reference, "Keywords"): the name also
+/// becomes a Rust module, so it cannot be one of these.
+const RUST_KEYWORDS: [&str; 51] = [
+    "as", "break", "const", "continue", "crate", "else", "enum", "extern", "false", "fn", "for",
+    "if", "impl", "in", "let", "loop", "match", "mod", "move", "mut", "pub", "ref", "return",
+    "self", "Self", "static", "struct", "super", "trait", "true", "type", "unsafe", "use", "where",
+    "while", "async", "await", "dyn", "abstract", "become", "box", "do", "final", "macro",
+    "override", "priv", "typeof", "unsized", "virtual", "yield", "try",
+];
+
+/// Accepts the names the spec grammar accepts after `model` (asking the parser, so
+/// that rule lives in one place) that are not Rust keywords.
 fn check_name(name: &str) -> Result<(), Diagnostic> {
     let (file, diagnostics) = crate::syntax::parse(&format!("model {name}"));
     let parsed_as_name = file.is_some_and(|f| {
         matches!(f.items.as_slice(), [crate::syntax::ast::Item::Model(m)] if m.name.name == name)
     });
-    if parsed_as_name && diagnostics.is_empty() {
+    if parsed_as_name && diagnostics.is_empty() && !RUST_KEYWORDS.contains(&name) {
         return Ok(());
     }
     Err(Diagnostic::new(
@@ -82,8 +93,8 @@ fn check_name(name: &str) -> Result<(), Diagnostic> {
         "the name becomes the model's name, the spec's file name and the module's name",
     )
     .with_hint(
-        "use letters, digits and `_`, starting with a letter, and not a keyword such as `model` \
-         or `state`: for example `field_rover`",
+        "use letters, digits and `_`, starting with a letter, and not a keyword of the spec \
+         language or of Rust (such as `state` or `mod`): for example `field_rover`",
     ))
 }
 
@@ -267,7 +278,9 @@ mod tests {
 
     #[test]
     fn bad_names_are_refused_with_a_hint() {
-        for bad in ["", "3rover", "my-rover", "state", "rover x", "rövér"] {
+        for bad in [
+            "", "3rover", "my-rover", "state", "rover x", "rövér", "fn", "mod",
+        ] {
             let error = scaffold(bad).expect_err(bad);
             assert_eq!(error.code, codes::SYNTAX);
             assert!(error.hint.is_some());

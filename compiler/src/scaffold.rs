@@ -27,8 +27,8 @@ pub struct Scaffold {
 
 /// The starter files for a model called `name`. The name must be a spec identifier
 /// (letters, digits and `_`, not starting with a digit) and not a keyword of the spec
-/// language or of Rust, since it names
-/// the model, the spec file and the generated module.
+/// language or of Rust, since it names the model, the spec file and the generated
+/// module.
 pub fn scaffold(name: &str) -> Result<Scaffold, Diagnostic> {
     check_name(name)?;
     let spec_path = format!("specs/{name}.reckon");

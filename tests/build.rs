@@ -33,6 +33,7 @@ const SPECS: &[(&str, &[Variant])] = &[
         "../specs/survey_launch.reckon",
         &[EKF_F64, EKF_F32, UKF_F64],
     ),
+    ("specs/every_function.reckon", &[EKF_F64, EKF_F32, UKF_F64]),
     ("specs/units_declared.reckon", &[EKF_F64, UKF_F64]),
     ("specs/units_si.reckon", &[EKF_F64, UKF_F64]),
 ];

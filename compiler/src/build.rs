@@ -1,11 +1,10 @@
 //! The build-script API: generating estimator modules from a crate's `build.rs`.
 //!
 //! ```no_run
-//! // build.rs of a firmware crate
-//! fn main() {
-//!     reckon::build::compile_spec("specs/rail_cart.reckon").unwrap();
-//! }
-//! // src/main.rs: mod rail_cart { include!(concat!(env!("OUT_DIR"), "/rail_cart.rs")); }
+//! // In the `main` of a firmware crate's build.rs:
+//! reckon::build::compile_spec("specs/rail_cart.reckon").unwrap();
+//! // and in its src/main.rs:
+//! // mod rail_cart { include!(concat!(env!("OUT_DIR"), "/rail_cart.rs")); }
 //! ```
 //!
 //! [`compile_spec`] is the one-call shortcut; [`Builder`] sets options, the output

@@ -516,6 +516,50 @@ fn survey_launch_matches_the_interpreter() {
     assert_close("survey_launch f32", &f32_trace, &ekf, MATCH_F32);
 }
 
+fn every_function_script() -> Vec<Step> {
+    vec![
+        predict(0.1, &[0.5]),
+        correct(0, &[22.5, 10.0], &[]),
+        correct(1, &[1.2], &[]),
+        predict(0.1, &[-0.5]),
+        correct(0, &[22.4, 9.0], &[]),
+        predict(0.2, &[0.0]),
+        correct(1, &[1.1], &[]),
+    ]
+}
+
+#[test]
+fn every_function_matches_the_interpreter() {
+    let model = load_test_spec("every_function");
+    let script = every_function_script();
+    let ekf = run_generated!(reckon_tests::every_function_ekf_f64, f64, &script, {
+        0 => correct_probe(ProbeReading),
+        1 => correct_level(LevelReading),
+    });
+    assert_close(
+        "every_function ekf",
+        &ekf,
+        &run_interpreted(&model, Method::Ekf, &script),
+        MATCH_F64,
+    );
+    let ukf = run_generated!(reckon_tests::every_function_ukf_f64, f64, &script, {
+        0 => correct_probe(ProbeReading),
+        1 => correct_level(LevelReading),
+    });
+    assert_close(
+        "every_function ukf",
+        &ukf,
+        &run_interpreted(&model, Method::Ukf, &script),
+        MATCH_F64,
+    );
+    let f32_trace = run_generated!(reckon_tests::every_function_ekf_f32, f32, &script, {
+        0 => correct_probe(ProbeReading),
+        1 => correct_level(LevelReading),
+    });
+    assert_close("every_function f32", &f32_trace, &ekf, MATCH_F32);
+    assert!(ekf.iter().all(|s| s.accepted));
+}
+
 /// Exact unit factors (NIST SP 811, appendix B): 1 ft = 0.3048 m, 1 mbar = 100 Pa,
 /// 1 kn = 1852/3600 m/s; 1 deg = pi/180 rad (SI Brochure, table 8).
 const FOOT: f64 = 0.3048;

@@ -42,18 +42,22 @@ pub(crate) fn check(
     }
     let mut warnings = initial_beliefs(model);
     if options.update == UpdateForm::Sequential {
-        warnings.extend(model.sensors.iter().filter_map(|sensor| {
-            matches!(sensor.noise, SensorNoise::Covariance(_)).then(|| {
-                Diagnostic::new(
-                    codes::SEQUENTIAL_NEEDS_DIAGONAL_NOISE,
-                    sensor.span,
-                    format!(
-                        "sensor `{}` has correlated reading noise; it is corrected with the Joseph form",
-                        sensor.name
-                    ),
-                )
-            })
-        }));
+        warnings.extend(
+            model
+                .sensors
+                .iter()
+                .filter(|sensor| matches!(sensor.noise, SensorNoise::Covariance(_)))
+                .map(|sensor| {
+                    Diagnostic::new(
+                        codes::SEQUENTIAL_NEEDS_DIAGONAL_NOISE,
+                        sensor.span,
+                        format!(
+                            "sensor `{}` has correlated reading noise; it is corrected with the Joseph form",
+                            sensor.name
+                        ),
+                    )
+                }),
+        );
     }
     Ok(warnings)
 }

@@ -39,7 +39,7 @@ impl Pattern {
             .entries()
             .iter()
             .map(|&id| match arena.constant_value(id) {
-                Some(value) if value == 0.0 => Entry::Zero,
+                Some(0.0) => Entry::Zero,
                 Some(value) => Entry::Constant(value),
                 None => Entry::Variable,
             })
@@ -139,8 +139,8 @@ fn sum_of_products(terms: Vec<(Factor, Code)>, scalar: Scalar) -> Option<Code> {
     terms
         .into_iter()
         .map(|(factor, value)| match factor {
-            Factor::Constant(c) if c == 1.0 => value,
-            Factor::Constant(c) if c == -1.0 => value.neg(),
+            Factor::Constant(1.0) => value,
+            Factor::Constant(-1.0) => value.neg(),
             Factor::Constant(c) => number(c, scalar).binary(quote!(*), &value, Prec::Product),
             Factor::Value(f) => f.binary(quote!(*), &value, Prec::Product),
         })

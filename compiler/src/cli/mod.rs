@@ -8,6 +8,8 @@ mod build;
 mod check;
 mod dump;
 mod explain;
+mod fmt;
+mod new;
 mod options;
 
 use clap::{Parser, Subcommand};
@@ -41,6 +43,10 @@ enum Command {
     Dump(dump::Args),
     /// Explain a diagnostic code, with an example.
     Explain(explain::Args),
+    /// Lay specs out canonically (comments kept); --check for CI.
+    Fmt(fmt::Args),
+    /// Start a new spec with every section present and commented.
+    New(new::Args),
 }
 
 /// Parses the command line, runs the subcommand, and returns the exit code.
@@ -64,5 +70,7 @@ pub fn run() -> i32 {
         Command::Build(args) => build::run(&args),
         Command::Dump(args) => dump::run(&args),
         Command::Explain(args) => explain::run(&args),
+        Command::Fmt(args) => fmt::run(&args),
+        Command::New(args) => new::run(&args),
     }
 }

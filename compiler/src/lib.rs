@@ -6,8 +6,14 @@
 //! Stages, in pipeline order: [`syntax`] (text to AST), [`check`] (AST to the checked
 //! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
 
+pub mod back;
+pub mod build;
 pub mod check;
 pub mod diag;
+pub mod ir;
 pub mod model;
+pub mod options;
+pub mod project;
+pub mod stats;
 pub mod syntax;
 pub mod units;

@@ -4,8 +4,11 @@
 //! problem. A new subcommand is a new variant of [`Command`] plus a module with an
 //! `Args` struct and a `run` function.
 
+mod build;
 mod check;
+mod dump;
 mod explain;
+mod options;
 
 use clap::{Parser, Subcommand};
 
@@ -21,7 +24,7 @@ pub const EXIT_USAGE: i32 = 2;
     name = "reckon",
     version,
     about = "Check state-estimator specs, generate estimators, simulate them",
-    after_help = "Examples:\n  reckon check specs/rail_cart.reckon\n  reckon check --format json specs/*.reckon\n  reckon explain E0303"
+    after_help = "Examples:\n  reckon check specs/rail_cart.reckon\n  reckon check --format json specs/*.reckon\n  reckon build specs/survey_launch.reckon --method ekf --out survey_launch.rs\n  reckon dump specs/rail_cart.reckon\n  reckon explain E0303"
 )]
 struct Cli {
     #[command(subcommand)]
@@ -32,6 +35,10 @@ struct Cli {
 enum Command {
     /// Check specs for syntax, unit, noise and structure errors.
     Check(check::Args),
+    /// Generate estimator modules (from a spec, or every estimator of reckon.toml).
+    Build(build::Args),
+    /// Print what reckon derived from a spec: the IR with Jacobians and discretisation.
+    Dump(dump::Args),
     /// Explain a diagnostic code, with an example.
     Explain(explain::Args),
 }
@@ -54,6 +61,8 @@ pub fn run() -> i32 {
     };
     match cli.command {
         Command::Check(args) => check::run(&args),
+        Command::Build(args) => build::run(&args),
+        Command::Dump(args) => dump::run(&args),
         Command::Explain(args) => explain::run(&args),
     }
 }

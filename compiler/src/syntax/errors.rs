@@ -85,6 +85,22 @@ fn describe(rule: Rule) -> Option<&'static str> {
     })
 }
 
+fn is_item(rule: Rule) -> bool {
+    use Rule::*;
+    matches!(
+        rule,
+        model_decl
+            | const_decl
+            | state_block
+            | input_block
+            | motion_block
+            | process_block
+            | sensor_block
+            | initial_block
+            | chunk
+    )
+}
+
 /// What sits at `at`: a word, a number, a character, or the end.
 fn found_at(text: &str, at: usize) -> (String, usize) {
     let rest = &text[at..];
@@ -137,8 +153,8 @@ pub(super) fn syntax_error(
 
     // The detailed attempts reach the farthest point any rule got to, which is
     // where the writer's mistake usually is; fall back to pest's summary.
-    let mut words: Vec<&str> = Vec::new();
-    let mut push = |w: &'static str| {
+    let mut words: Vec<&'static str> = Vec::new();
+    let push = |words: &mut Vec<&'static str>, w: &'static str| {
         if !words.contains(&w) {
             words.push(w);
         }
@@ -146,29 +162,41 @@ pub(super) fn syntax_error(
     let relative = match error.parse_attempts() {
         Some(attempts) if attempts.max_position >= reported => {
             for stack in attempts.call_stacks() {
-                if let Some(w) = stack
+                // An item rule names "a new item" only where an item may start;
+                // deeper in, it stands for attempts pest collapsed, whose
+                // punctuation comes from the expected tokens below.
+                let rule = stack
                     .deepest
                     .get_rule()
                     .copied()
                     .or(stack.parent)
-                    .and_then(describe)
-                {
-                    push(w);
+                    .filter(|rule| attempts.max_position == 0 || !is_item(*rule));
+                if let Some(w) = rule.and_then(describe) {
+                    push(&mut words, w);
                 }
             }
             for token in attempts.expected_tokens() {
                 let token = token.to_string();
                 if let Some((_, quoted)) = PUNCTUATION.iter().find(|(p, _)| *p == token) {
-                    push(quoted);
+                    push(&mut words, quoted);
                 }
+            }
+            if words.is_empty() {
+                // Nothing nameable at the farthest point: pest's own summary.
+                positives
+                    .iter()
+                    .copied()
+                    .filter_map(describe)
+                    .for_each(|w| push(&mut words, w));
             }
             attempts.max_position
         }
         _ => {
             positives
-                .into_iter()
+                .iter()
+                .copied()
                 .filter_map(describe)
-                .for_each(&mut push);
+                .for_each(|w| push(&mut words, w));
             reported
         }
     };

@@ -11,10 +11,15 @@ mod errors;
 mod parser;
 mod scan;
 
+use std::borrow::Cow;
+
 pub use scan::MAX_NESTING;
 
 use crate::diag::{codes, Diagnostic, Span};
 use ast::File;
+
+/// Syntax errors reported per item before giving up on it.
+const MAX_ERRORS_PER_ITEM: usize = 16;
 
 /// Stack for the parser and checker threads: deep enough for [`MAX_NESTING`]
 /// levels of every recursive pass with a wide margin.
@@ -48,9 +53,33 @@ pub(crate) fn parse_here(text: &str) -> (Option<File>, Vec<Diagnostic>) {
     let mut items = Vec::new();
     for (i, &start) in starts.iter().enumerate() {
         let end = starts.get(i + 1).copied().unwrap_or(text.len());
-        match parser::parse_item(text, start, end, &mut docs) {
-            Ok(item) => items.push(item),
-            Err(diagnostic) => diagnostics.push(*diagnostic),
+        let mut chunk = Cow::Borrowed(&text[start..end]);
+        // After an error inside a block, blank the offending line and try again,
+        // so one run reports the other broken statements of the block too. An
+        // error on the very next line is most likely the same statement running
+        // on, so it ends the attempts unreported.
+        let mut blanked_until = None;
+        for _ in 0..MAX_ERRORS_PER_ITEM {
+            match parser::parse_item(text, &chunk, start, &mut docs) {
+                Ok(item) => {
+                    items.push(item);
+                    break;
+                }
+                Err(diagnostic) => {
+                    let at = diagnostic.primary_span().start.saturating_sub(start);
+                    if blanked_until.is_some_and(|end| scan::on_next_line(&chunk, end, at)) {
+                        break;
+                    }
+                    diagnostics.push(*diagnostic);
+                    match scan::blank_statement_line(&chunk, at) {
+                        Some((blanked, line_end)) => {
+                            chunk = Cow::Owned(blanked);
+                            blanked_until = Some(line_end);
+                        }
+                        None => break,
+                    }
+                }
+            }
         }
     }
     for doc in docs.unclaimed() {

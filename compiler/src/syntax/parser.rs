@@ -27,14 +27,15 @@ static PRATT: LazyLock<PrattParser<Rule>> = LazyLock::new(|| {
         .op(Op::infix(Rule::pow, Assoc::Right))
 });
 
-/// Parses the top-level item at `offset..end` of `text`.
+/// Parses `chunk`, the top-level item at `offset` of `text` (possibly with broken
+/// lines blanked out); messages quote `text`.
 pub(super) fn parse_item(
     text: &str,
+    chunk: &str,
     offset: usize,
-    end: usize,
     docs: &mut DocTable,
 ) -> Built<Item> {
-    let mut pairs = SpecGrammar::parse(Rule::chunk, &text[offset..end])
+    let mut pairs = SpecGrammar::parse(Rule::chunk, chunk)
         .map_err(|e| Box::new(super::errors::syntax_error(&e, text, offset)))?;
     let item = pairs
         .next()

@@ -173,6 +173,35 @@ pub fn too_deep(text: &str) -> Option<Span> {
     None
 }
 
+/// `chunk` with the line holding byte `at` replaced by blanks (offsets unchanged)
+/// and the offset where that line ends, or `None` when the line cannot be dropped
+/// safely: the item's first line, a line with a brace, or a position past the end.
+pub fn blank_statement_line(chunk: &str, at: usize) -> Option<(String, usize)> {
+    if at >= chunk.len() || !chunk.is_char_boundary(at) {
+        return None;
+    }
+    let line_start = chunk[..at].rfind('\n').map(|n| n + 1)?;
+    let line_end = chunk[at..].find('\n').map_or(chunk.len(), |n| at + n);
+    let line = &chunk[line_start..line_end];
+    if line.contains(['{', '}']) || line.trim().is_empty() {
+        return None;
+    }
+    let mut blanked = String::with_capacity(chunk.len());
+    blanked.push_str(&chunk[..line_start]);
+    blanked.extend(std::iter::repeat_n(' ', line.len()));
+    blanked.push_str(&chunk[line_end..]);
+    Some((blanked, line_end))
+}
+
+/// True when byte `at` lies on the first non-blank line after offset `line_end`.
+pub fn on_next_line(chunk: &str, line_end: usize, at: usize) -> bool {
+    let (Some(between), Some(before)) = (chunk.get(line_end..at), chunk.get(..at)) else {
+        return false;
+    };
+    let at_line_start = before.rfind('\n').map_or(0, |n| n + 1);
+    at_line_start >= line_end && between[..at_line_start - line_end].trim().is_empty()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -206,6 +235,19 @@ mod tests {
         let starts = item_starts(text);
         let words: Vec<&str> = starts.iter().map(|&s| &text[s..s + 4]).collect();
         assert_eq!(words, ["junk", "mode", "cons", "stat"]);
+    }
+
+    #[test]
+    fn broken_lines_are_blanked_but_never_braces_or_headers() {
+        let chunk = "state {\n  x m\n  y : m\n}";
+        let (blanked, line_end) = blank_statement_line(chunk, 12).expect("a blankable line");
+        assert_eq!(blanked, "state {\n     \n  y : m\n}");
+        assert_eq!(line_end, 13);
+        assert!(on_next_line(&blanked, line_end, 16));
+        assert!(!on_next_line(&blanked, line_end, 5));
+        assert_eq!(blank_statement_line(chunk, 2), None);
+        assert_eq!(blank_statement_line(chunk, chunk.len() - 1), None);
+        assert_eq!(blank_statement_line("const c = µ", 10), None);
     }
 
     #[test]

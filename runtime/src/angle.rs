@@ -1,4 +1,4 @@
-//! Angle arithmetic: wrapping to the half-open interval (-pi, pi] and circular means.
+//! Angle arithmetic: wrapping to the half-open interval (-pi, pi].
 
 use crate::Real;
 
@@ -16,45 +16,6 @@ pub fn wrap_angle<T: Real>(angle: T) -> T {
         wrapped - two_pi
     } else {
         wrapped
-    }
-}
-
-/// Running weighted circular mean: accumulates `weight * (sin, cos)` and reports
-/// `atan2(sum sin, sum cos)`.
-///
-/// Weights may be negative (the unscented transform's central weight often is); the
-/// result is the direction of the weighted resultant vector.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct CircularMean<T> {
-    sin_sum: T,
-    cos_sum: T,
-}
-
-impl<T: Real> Default for CircularMean<T> {
-    fn default() -> Self {
-        Self::new()
-    }
-}
-
-impl<T: Real> CircularMean<T> {
-    /// An empty accumulator.
-    pub fn new() -> Self {
-        Self {
-            sin_sum: T::zero(),
-            cos_sum: T::zero(),
-        }
-    }
-
-    /// Adds `angle` with `weight`.
-    pub fn add(&mut self, weight: T, angle: T) {
-        let (sin, cos) = angle.sin_cos();
-        self.sin_sum += weight * sin;
-        self.cos_sum += weight * cos;
-    }
-
-    /// The mean direction in (-pi, pi].
-    pub fn mean(&self) -> T {
-        wrap_angle(self.sin_sum.atan2(self.cos_sum))
     }
 }
 
@@ -80,14 +41,6 @@ mod tests {
         assert!((wrap_angle(3.0 * PI / 2.0) + PI / 2.0).abs() < 1e-12);
         assert!((wrap_angle(-3.0 * PI / 2.0) - PI / 2.0).abs() < 1e-12);
         assert!((wrap_angle(3.5_f32) - (3.5 - 2.0 * core::f32::consts::PI)).abs() < 1e-6);
-    }
-
-    #[test]
-    fn circular_mean_straddles_the_cut() {
-        let mut mean = CircularMean::new();
-        mean.add(0.5, PI - 0.1);
-        mean.add(0.5, -PI + 0.1);
-        assert!((wrap_angle(mean.mean() - PI)).abs() < 1e-12);
     }
 
     #[test]

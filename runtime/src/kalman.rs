@@ -85,6 +85,23 @@ where
         })
     }
 
+    /// Restarts from mean `x` and covariance `p`, keeping the angle mask, the limits and
+    /// the health counters; on error nothing changes.
+    pub fn reset(&mut self, x: OVector<T, N>, p: OMatrix<T, N, N>) -> Result<(), InitError> {
+        let fresh = Self::new(x, p)?;
+        if fresh.state.nrows() != self.state.nrows() {
+            return Err(InitError::DimensionMismatch);
+        }
+        if fresh.health.symmetrisations > 0 {
+            bump(&mut self.health.symmetrisations);
+        }
+        self.commit(Moments {
+            mean: fresh.state,
+            covariance: fresh.covariance,
+        });
+        Ok(())
+    }
+
     /// Marks which state components are angles; those are wrapped to (-pi, pi] now and
     /// after every step, and averaged on the circle by the unscented filter.
     pub fn set_angle_states(&mut self, mask: OVector<bool, N>) -> Result<(), InitError> {
@@ -506,13 +523,13 @@ where
 
 #[cfg(test)]
 mod tests {
-    extern crate std;
 
     use super::*;
     use crate::test_models::{
-        ConstantVelocity, LinearReading, RandomConstant, RangeBearing, Unicycle,
+        assert_untouched, unicycle_filter, ConstantVelocity, LinearReading, RandomConstant,
+        RangeBearing, Unicycle,
     };
-    use nalgebra::{Matrix1, Matrix2, Matrix3, Vector1, Vector2, Vector3, U3};
+    use nalgebra::{Matrix1, Matrix2, Matrix3, Vector1, Vector2, Vector3};
 
     fn no_input() -> OVector<f64, nalgebra::Const<0>> {
         OVector::<f64, nalgebra::Const<0>>::zeros()
@@ -607,32 +624,6 @@ mod tests {
         let (mean, variance) = fuse(-1.0, 2.0, 5.0, 2.0);
         assert!((mean - 2.0).abs() < 1e-12);
         assert!((variance - 1.0).abs() < 1e-12);
-    }
-
-    fn unicycle_filter() -> KalmanFilter<f64, U3> {
-        let p = Matrix3::new(0.5, 0.1, 0.0, 0.1, 0.4, 0.05, 0.0, 0.05, 0.2);
-        let mut filter = KalmanFilter::new(Vector3::new(1.0, -2.0, 3.0), p).unwrap();
-        filter
-            .set_angle_states(Vector3::new(false, false, true))
-            .unwrap();
-        filter
-    }
-
-    fn assert_untouched(filter: &KalmanFilter<f64, U3>, before: &KalmanFilter<f64, U3>) {
-        let bits = |values: &[f64]| {
-            values
-                .iter()
-                .map(|v| v.to_bits())
-                .collect::<std::vec::Vec<_>>()
-        };
-        assert_eq!(
-            bits(filter.state().as_slice()),
-            bits(before.state().as_slice())
-        );
-        assert_eq!(
-            bits(filter.covariance().as_slice()),
-            bits(before.covariance().as_slice())
-        );
     }
 
     #[test]
@@ -829,6 +820,26 @@ mod tests {
         let expected = Matrix2::new(5.0 + 8.0 / 3.0, 2.0 + 2.0, 2.0 + 2.0, 1.0 + 2.0);
         assert!((filter.covariance() - expected).norm() < 1e-12);
         assert_eq!(filter.state(), &Vector2::new(2.0, 1.0));
+    }
+
+    #[test]
+    fn reset_keeps_configuration_and_applies_it() {
+        let mut filter = unicycle_filter();
+        filter
+            .predict(&Unicycle { q: 0.01 }, &Vector2::new(1.0, 0.0), 0.1)
+            .unwrap();
+        filter
+            .reset(Vector3::new(0.0, 0.0, 4.0), Matrix3::identity())
+            .unwrap();
+        // The heading is an angle: 4 rad wraps to 4 - 2 pi.
+        assert!((filter.state()[2] - (4.0 - 2.0 * core::f64::consts::PI)).abs() < 1e-12);
+        assert_eq!(filter.health().predictions, 1);
+        let before = filter.clone();
+        assert_eq!(
+            filter.reset(Vector3::new(f64::NAN, 0.0, 0.0), Matrix3::identity()),
+            Err(InitError::NonFinite)
+        );
+        assert_eq!(filter, before);
     }
 
     #[test]

@@ -1,10 +1,12 @@
-//! Small linear-algebra helpers shared by the filters: finiteness tests and the
-//! symmetric positive-definite solve used for innovation covariances.
+//! Small linear-algebra helpers shared by the filters and by model code: finiteness tests,
+//! the symmetric positive-definite solve used for innovation covariances, and noise
+//! mapped through a gain.
 
 use nalgebra::{
     allocator::Allocator, Cholesky, DefaultAllocator, Dim, Matrix, OMatrix, RawStorage,
 };
 
+use crate::health::symmetrise;
 use crate::Real;
 
 /// Whether every entry of `m` is finite.
@@ -42,6 +44,22 @@ where
     spd_factor(s).is_some()
 }
 
+/// Adds `G Q G^T` to `out`: the covariance that noise `Q` on `W` variables adds to `N`
+/// state components through the gain `G` (`N x W`), for example input noise through the
+/// motion model's input Jacobian inside [`crate::MotionModel::process_noise`]. The sum is
+/// made exactly symmetric.
+pub fn add_noise_through_gain<T: Real, N: Dim, W: Dim>(
+    out: &mut OMatrix<T, N, N>,
+    gain: &OMatrix<T, N, W>,
+    noise: &OMatrix<T, W, W>,
+) where
+    DefaultAllocator: Allocator<N, N> + Allocator<N, W> + Allocator<W, N> + Allocator<W, W>,
+{
+    let gq = gain * noise;
+    out.gemm(T::one(), &gq, &gain.transpose(), T::one());
+    symmetrise(out);
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -53,6 +71,19 @@ mod tests {
         let factor = spd_factor(&s).expect("SPD");
         let x = factor.solve(&Vector2::new(2.0, 1.0));
         assert!((s * x - Vector2::new(2.0, 1.0)).norm() < 1e-14);
+    }
+
+    #[test]
+    fn noise_through_gain_matches_hand_product() {
+        // Speed noise of variance 4 entering position and heading through
+        // G = [[dt cos h], [dt sin h], [0]] with dt = 0.5, h = 0: only (0, 0) gains 1.
+        let mut out = nalgebra::Matrix3::identity();
+        let gain = nalgebra::Matrix3x1::new(0.5, 0.0, 0.0);
+        add_noise_through_gain(&mut out, &gain, &nalgebra::Matrix1::new(4.0));
+        assert_eq!(
+            out,
+            nalgebra::Matrix3::from_diagonal(&nalgebra::Vector3::new(2.0, 1.0, 1.0))
+        );
     }
 
     #[test]

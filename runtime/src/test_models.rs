@@ -1,7 +1,13 @@
-//! Models shared by the crate's unit tests: a scalar random constant, a constant-velocity
-//! track with a position reading, and a unicycle with a range-bearing landmark reading.
+//! Models and fixtures shared by the crate's unit tests: a scalar random constant, a
+//! constant-velocity track with a position reading, a unicycle with a range-bearing
+//! landmark reading, a linear reading, and the bit-identity check of rejected steps.
 
-use nalgebra::{Const, Matrix2, Matrix3, OMatrix, OVector, Vector2, Vector3, U1, U2, U3};
+use nalgebra::{
+    allocator::Allocator, Const, DefaultAllocator, Dim, Matrix2, Matrix3, OMatrix, OVector,
+    Vector2, Vector3, U1, U2, U3,
+};
+
+use crate::KalmanFilter;
 
 use crate::model::{MotionModel, ReadingModel, UpdateForm};
 use crate::{lit, Real};
@@ -247,4 +253,36 @@ impl ReadingModel<f64, U3, U2> for LinearReading {
     fn update_form(&self) -> UpdateForm {
         self.form
     }
+}
+
+/// A unicycle filter away from the origin with correlated covariance and an angle heading.
+pub fn unicycle_filter() -> KalmanFilter<f64, U3> {
+    let p = Matrix3::new(0.5, 0.1, 0.0, 0.1, 0.4, 0.05, 0.0, 0.05, 0.2);
+    let mut filter = KalmanFilter::new(Vector3::new(1.0, -2.0, 3.0), p).unwrap();
+    filter
+        .set_angle_states(Vector3::new(false, false, true))
+        .unwrap();
+    filter
+}
+
+/// Asserts that state and covariance are bit-identical to `before` (a rejected step must
+/// not touch them; comparing bits also catches a NaN written and a -0.0 for 0.0).
+pub fn assert_untouched<N: Dim>(filter: &KalmanFilter<f64, N>, before: &KalmanFilter<f64, N>)
+where
+    DefaultAllocator: Allocator<N> + Allocator<N, N>,
+{
+    let same = |a: &[f64], b: &[f64]| {
+        a.len() == b.len() && a.iter().zip(b).all(|(x, y)| x.to_bits() == y.to_bits())
+    };
+    assert!(
+        same(filter.state().as_slice(), before.state().as_slice()),
+        "state changed"
+    );
+    assert!(
+        same(
+            filter.covariance().as_slice(),
+            before.covariance().as_slice()
+        ),
+        "covariance changed"
+    );
 }

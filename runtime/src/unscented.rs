@@ -284,7 +284,9 @@ where
     }
 
     /// Unscented Kalman correction with reading `z`; `gate` as in
-    /// [`KalmanFilter::correct`]. The covariance update is `P - K S K^T`.
+    /// [`KalmanFilter::correct`]. The covariance update is `P - K S K^T` (the model's
+    /// [`ReadingModel::update_form`] and Jacobian are not used); a result with a negative
+    /// variance is rejected as [`CorrectError::NotPositiveDefinite`].
     pub fn correct_unscented<M: Dim, Model: ReadingModel<T, N, M>>(
         &mut self,
         model: &Model,
@@ -366,6 +368,15 @@ where
         if !all_finite(&mean) || !all_finite(&covariance) {
             return Err(CorrectError::NonFiniteResult);
         }
+        // Unlike the Joseph form, the subtraction can leave a negative variance when the
+        // weights are inconsistent or the nonlinearity is severe.
+        if covariance
+            .diagonal()
+            .iter()
+            .any(|&variance| variance < T::zero())
+        {
+            return Err(CorrectError::NotPositiveDefinite);
+        }
         Ok((
             Moments { mean, covariance },
             Innovation {
@@ -379,12 +390,13 @@ where
 
 #[cfg(test)]
 mod tests {
-    extern crate std;
 
     use super::*;
-    use crate::test_models::{ConstantVelocity, RangeBearing, Unicycle};
+    use crate::test_models::{
+        assert_untouched, unicycle_filter, ConstantVelocity, RangeBearing, Unicycle,
+    };
     use crate::UpdateForm;
-    use nalgebra::{Const, Matrix1, Matrix2, Matrix3, Vector1, Vector2, Vector3, U1, U2, U3};
+    use nalgebra::{Const, Matrix1, Matrix2, Vector1, Vector2, U1, U2};
 
     fn params(alpha: f64, beta: f64, kappa: f64) -> UnscentedParams<f64> {
         UnscentedParams { alpha, beta, kappa }
@@ -519,29 +531,6 @@ mod tests {
         }
     }
 
-    fn unicycle_filter() -> KalmanFilter<f64, U3> {
-        let p = Matrix3::new(0.5, 0.1, 0.0, 0.1, 0.4, 0.05, 0.0, 0.05, 0.2);
-        let mut filter = KalmanFilter::new(Vector3::new(1.0, -2.0, 3.0), p).unwrap();
-        filter
-            .set_angle_states(Vector3::new(false, false, true))
-            .unwrap();
-        filter
-    }
-
-    fn same_bits(a: &KalmanFilter<f64, U3>, b: &KalmanFilter<f64, U3>) -> bool {
-        let state = a
-            .state()
-            .iter()
-            .zip(b.state().iter())
-            .all(|(x, y)| x.to_bits() == y.to_bits());
-        let covariance = a
-            .covariance()
-            .iter()
-            .zip(b.covariance().iter())
-            .all(|(x, y)| x.to_bits() == y.to_bits());
-        state && covariance
-    }
-
     #[test]
     fn rejected_unscented_steps_leave_filter_bit_identical() {
         // Fault injection (common practice, no source).
@@ -567,7 +556,7 @@ mod tests {
                 filter.predict_unscented(&motion, &u, dt, &weights),
                 Err(expected)
             );
-            assert!(same_bits(&filter, &before));
+            assert_untouched(&filter, &before);
         }
         let wrong_size = UnscentedWeights::new(&params(1.0, 2.0, 0.0), 2).unwrap();
         let mut filter = unicycle_filter();
@@ -615,7 +604,7 @@ mod tests {
                 }
                 other => assert_eq!(other, expected),
             }
-            assert!(same_bits(&filter, &before));
+            assert_untouched(&filter, &before);
         }
         let mut filter = unicycle_filter();
         let before = filter.clone();
@@ -624,6 +613,28 @@ mod tests {
             .correct_unscented(&reading, &z_hat, &[f64::NAN, 5.0], None, &weights)
             .unwrap_err();
         assert_eq!(error, CorrectError::NonFiniteResult);
-        assert!(same_bits(&filter, &before));
+        assert_untouched(&filter, &before);
+    }
+
+    #[test]
+    fn negative_variance_after_unscented_correction_is_rejected() {
+        // Hand-made weights whose covariance and cross-covariance scales disagree
+        // (2 Wi spread^2 = 2 instead of 1): for P = 1, H = 1 the update gives
+        // 1 - 4 / (2 + R) < 0.
+        let weights = UnscentedWeights {
+            dimension: 1,
+            mean_center: 0.0,
+            covariance_center: 0.0,
+            outer: 1.0,
+            spread: 1.0,
+        };
+        let model = crate::test_models::RandomConstant { q: 0.0, r: 0.01 };
+        let mut filter = KalmanFilter::new(Vector1::new(0.0_f64), Matrix1::new(1.0)).unwrap();
+        let before = filter.clone();
+        assert_eq!(
+            filter.correct_unscented(&model, &Vector1::new(0.5), &(), None, &weights),
+            Err(CorrectError::NotPositiveDefinite)
+        );
+        assert_untouched(&filter, &before);
     }
 }

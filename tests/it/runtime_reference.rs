@@ -7,7 +7,7 @@ use nalgebra::{
     Const, DMatrix, DVector, Dim, Dyn, Matrix2, Matrix4, OMatrix, OVector, Vector1, Vector2,
 };
 use reckon_runtime::expm::{expm, van_loan};
-use reckon_runtime::{KalmanFilter, MotionModel, ReadingModel};
+use reckon_runtime::{KalmanFilter, MotionModel, ReadingModel, UnscentedParams, UnscentedWeights};
 
 const REFERENCE: &str = include_str!("../reference/runtime_reference.txt");
 
@@ -196,6 +196,71 @@ fn constant_velocity_filter_reaches_discrete_riccati_solution() {
         });
     assert!((&dynamic_prior - &prior).norm() < 1e-12);
     assert!((&dynamic_gain - &gain).norm() < 1e-12);
+}
+
+#[test]
+fn unscented_filter_runs_on_dynamic_dimensions() {
+    // The simulator runs the unscented filter on `Dyn` matrices; it must give what the
+    // fixed-size firmware filter gives, and both must reach the Riccati solution above
+    // (the transform is exact on this linear model).
+    let weights = UnscentedWeights::new(
+        &UnscentedParams {
+            alpha: 1.0,
+            beta: 2.0,
+            kappa: 1.0,
+        },
+        2,
+    )
+    .expect("weights");
+    let p0 = Matrix2::new(10.0, 0.0, 0.0, 10.0);
+    let mut fixed = KalmanFilter::new(Vector2::new(0.0, 0.0), p0).expect("filter");
+    let fixed_model = Track {
+        input: Const::<0>,
+        reading: Const::<1>,
+    };
+    let mut dynamic = KalmanFilter::new(
+        DVector::from_element(2, 0.0),
+        DMatrix::from_column_slice(2, 2, p0.as_slice()),
+    )
+    .expect("filter");
+    let dynamic_model = Track {
+        input: Dyn(0),
+        reading: Dyn(1),
+    };
+    let expected_prior = reference_matrix("dare_prior");
+    for step in 0..300 {
+        let reading = (f64::from(step) * 0.7).sin() * 3.0;
+        fixed
+            .predict_unscented(
+                &fixed_model,
+                &OVector::<f64, Const<0>>::zeros(),
+                1.0,
+                &weights,
+            )
+            .expect("predict");
+        dynamic
+            .predict_unscented(&dynamic_model, &DVector::zeros(0), 1.0, &weights)
+            .expect("predict");
+        if step == 299 {
+            let prior = DMatrix::from_iterator(2, 2, fixed.covariance().iter().copied());
+            // scipy.linalg.solve_discrete_are (scipy 1.17.1), as above.
+            assert!((prior - &expected_prior).norm() < 1e-9);
+        }
+        fixed
+            .correct_unscented(&fixed_model, &Vector1::new(reading), &(), None, &weights)
+            .expect("correct");
+        dynamic
+            .correct_unscented(
+                &dynamic_model,
+                &DVector::from_element(1, reading),
+                &(),
+                None,
+                &weights,
+            )
+            .expect("correct");
+    }
+    let fixed_state = DVector::from_iterator(2, fixed.state().iter().copied());
+    assert!((fixed_state - dynamic.state()).norm() < 1e-12);
 }
 
 #[test]

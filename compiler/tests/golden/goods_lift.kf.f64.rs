@@ -241,9 +241,9 @@ impl reckon_runtime::MotionModel<f64, Const<3>, Const<1>> for Dynamics<'_> {
     ) {
         let [[x0, x1, x2]] = x.data.0;
         let [[u0]] = u.data.0;
-        let t11 = dt * dt;
+        let t8 = dt * dt;
         *x_next = SVector::from([
-            u0 * (t11 * 0.5_f64) + (x2 * (t11 * -0.5_f64) + (x0 + x1 * dt)),
+            u0 * (t8 * 0.5_f64) + (x2 * (t8 * -0.5_f64) + (x0 + x1 * dt)),
             u0 * dt + (x1 - x2 * dt),
             x2,
         ]);
@@ -270,23 +270,22 @@ impl reckon_runtime::MotionModel<f64, Const<3>, Const<1>> for Dynamics<'_> {
         dt: f64,
         noise: &mut SMatrix<f64, 3, 3>,
     ) {
-        let t11 = dt * dt;
-        let t16 = t11 * 0.5_f64;
-        let t28 = ComplexField::powf(dt, 3.0_f64);
-        let t80 = t28 * 0.3333333333333333_f64;
+        let t8 = dt * dt;
+        let t15 = t8 * 0.5_f64;
+        let t16 = dt * t8;
+        let t29 = dt * t16;
+        let t76 = t16 * 0.3333333333333333_f64;
         let density_climb = self.tuning.climb_white * self.tuning.climb_white;
         let density_accel_bias = self.tuning.accel_bias_white
             * self.tuning.accel_bias_white;
         let variance0 = self.tuning.accel_sigma * self.tuning.accel_sigma;
-        let q_0_0 = density_climb * t80
-            + density_accel_bias * (ComplexField::powf(dt, 5.0_f64) * 0.05_f64)
-            + variance0 * t16 * t16;
-        let q_0_1 = density_climb * t16
-            + density_accel_bias * (ComplexField::powf(dt, 4.0_f64) * 0.125_f64)
-            + variance0 * t16 * dt;
-        let q_0_2 = density_accel_bias * (t28 * -0.16666666666666666_f64);
-        let q_1_1 = density_climb * dt + density_accel_bias * t80 + variance0 * dt * dt;
-        let q_1_2 = density_accel_bias * (t11 * -0.5_f64);
+        let q_0_0 = density_climb * t76 + density_accel_bias * (dt * t29 * 0.05_f64)
+            + variance0 * t15 * t15;
+        let q_0_1 = density_climb * t15 + density_accel_bias * (t29 * 0.125_f64)
+            + variance0 * t15 * dt;
+        let q_0_2 = density_accel_bias * (t16 * -0.16666666666666666_f64);
+        let q_1_1 = density_climb * dt + density_accel_bias * t76 + variance0 * dt * dt;
+        let q_1_2 = density_accel_bias * (t8 * -0.5_f64);
         let q_2_2 = density_accel_bias * dt;
         *noise = SMatrix::from_array_storage(
             ArrayStorage([

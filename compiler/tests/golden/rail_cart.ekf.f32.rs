@@ -10,7 +10,7 @@ use reckon_runtime::nalgebra::{ArrayStorage, ComplexField, Const, SMatrix, SVect
 use reckon_runtime::{
     CorrectError, Health, InitError, Innovation, KalmanFilter, PredictError,
 };
-/// Default innovation gate of sensor `laser`: the chi-square quantile of probability 0.9990000000000001 for 1 degrees of freedom (computed at build time), compared with the normalised innovation squared.
+/// Default innovation gate of sensor `laser`: the chi-square quantile of probability 0.999 for 1 degrees of freedom (computed at build time), compared with the normalised innovation squared.
 pub const LASER_GATE: f32 = 10.827566_f32;
 /// A state of `rail_cart`: the estimate's mean, or per-component standard deviations, in SI units.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
@@ -241,7 +241,10 @@ impl reckon_runtime::MotionModel<f32, Const<2>, Const<1>> for Dynamics<'_> {
     ) {
         let [[x0, x1]] = x.data.0;
         let [[u0]] = u.data.0;
-        *x_next = SVector::from([x0 + x1 * dt + 0.5_f32 * u0 * (dt * dt), x1 + dt * u0]);
+        *x_next = SVector::from([
+            x0 + x1 * dt + 0.5_f32 * u0 * ComplexField::powf(dt, 2.0_f32),
+            x1 + dt * u0,
+        ]);
     }
     fn transition_jacobian(
         &self,
@@ -261,7 +264,7 @@ impl reckon_runtime::MotionModel<f32, Const<2>, Const<1>> for Dynamics<'_> {
         dt: f32,
         noise: &mut SMatrix<f32, 2, 2>,
     ) {
-        let t27 = 0.5_f32 * (dt * dt);
+        let t27 = 0.5_f32 * ComplexField::powf(dt, 2.0_f32);
         let variance0 = self.tuning.position_step_sigma
             * self.tuning.position_step_sigma;
         let variance1 = self.tuning.speed_step_sigma * self.tuning.speed_step_sigma;

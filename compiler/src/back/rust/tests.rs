@@ -240,3 +240,14 @@ fn models_built_in_rust_generate_too() {
         assert!(generated.code.contains("pub struct Estimator"));
     }
 }
+
+#[test]
+fn a_gate_without_a_quantile_is_refused_rather_than_rejecting_everything() {
+    let text = spec("rail_cart");
+    let mut model = check::check_source(&text).model.expect("demo spec checks");
+    let gate = model.sensors[0].gate.as_mut().expect("the laser is gated");
+    gate.probability = 1.0;
+    let diagnostics = generate_from_model("rail_cart", &text, &model, &EstimatorOptions::default())
+        .expect_err("refused");
+    assert_eq!(diagnostics[0].code, codes::INTERNAL);
+}

@@ -13,6 +13,8 @@ fn language_reference_lists_every_front_end_code() {
     let missing: Vec<String> = codes::ALL
         .iter()
         .filter(|c| *c != &codes::INTERNAL && !c.id.starts_with("E06") && !c.id.starts_with("E07"))
+        // Back-end warnings are listed in docs/generated-code.md.
+        .filter(|c| !c.id.starts_with("W085"))
         .filter(|c| !page.contains(&format!("| {} | {} |", c.id, c.title)))
         .map(|c| format!("| {} | {} |", c.id, c.title))
         .collect();

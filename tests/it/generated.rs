@@ -4,6 +4,7 @@
 //! readings given in SI.
 
 use nalgebra::{DMatrix, DVector};
+use proptest::prelude::*;
 use reckon::back::interp::{InterpretedMotion, InterpretedSensor};
 use reckon::back::rust::lower_options;
 use reckon::check::check_source;
@@ -647,4 +648,81 @@ fn state_accessors_convert_to_declared_units() {
     // The spec gives a heading sigma of 20 deg.
     assert!((std_dev.heading - 20.0 * DEGREE).abs() < 1e-15);
     assert!((std_dev.heading_in_declared_unit() - 20.0).abs() < 1e-12);
+}
+
+/// Random scripts may drive the filters far from a realistic belief, where the
+/// gain amplifies round-off; a looser bound than [`MATCH_F64`] keeps the property about
+/// the functions, not about conditioning.
+const MATCH_RANDOM: f64 = 1e-9;
+
+fn survey_launch_step() -> impl Strategy<Value = Step> {
+    prop_oneof![
+        (0.01..1.0f64, -1.0..1.0f64).prop_map(|(dt, accel)| predict(dt, &[accel])),
+        (
+            1.0..80.0f64,
+            -180.0..180.0f64,
+            -50.0..50.0f64,
+            -50.0..50.0f64
+        )
+            .prop_map(|(range, bearing, e, n)| correct(0, &[range, bearing], &[e, n])),
+        (-180.0..180.0f64).prop_map(|heading| correct(1, &[heading], &[])),
+        (0.0..5.0f64).prop_map(|knots| correct(2, &[knots], &[])),
+        (-10.0..10.0f64).prop_map(|rate| correct(3, &[rate], &[])),
+    ]
+}
+
+fn pallet_robot_step() -> impl Strategy<Value = Step> {
+    prop_oneof![
+        (0.01..0.5f64).prop_map(|dt| predict(dt, &[])),
+        (-30.0..30.0f64, -30.0..30.0f64).prop_map(|(l, r)| correct(0, &[l, r], &[])),
+        (-20.0..20.0f64).prop_map(|rate| correct(1, &[rate], &[])),
+        (
+            -2000.0..2000.0f64,
+            -2000.0..2000.0f64,
+            -3.0..3.0f64,
+            -3.0..3.0f64
+        )
+            .prop_map(|(f, l, e, n)| correct(2, &[f, l], &[e, n])),
+    ]
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(48))]
+
+    /// Generated extended and unscented filters follow the interpreter on random
+    /// scripts, wrapped bearings and gated readings included.
+    #[test]
+    fn survey_launch_follows_the_interpreter_on_random_scripts(
+        script in prop::collection::vec(survey_launch_step(), 1..14)
+    ) {
+        let model = load("survey_launch");
+        let ekf = run_generated!(reckon_tests::survey_launch_ekf_f64, f64, &script, {
+            0 => correct_transponder(TransponderReading, beacon_east, beacon_north),
+            1 => correct_compass(CompassReading),
+            2 => correct_log(LogReading),
+            3 => correct_gyro(GyroReading),
+        });
+        assert_close("survey_launch ekf", &ekf, &run_interpreted(&model, Method::Ekf, &script), MATCH_RANDOM);
+        let ukf = run_generated!(reckon_tests::survey_launch_ukf_f64, f64, &script, {
+            0 => correct_transponder(TransponderReading, beacon_east, beacon_north),
+            1 => correct_compass(CompassReading),
+            2 => correct_log(LogReading),
+            3 => correct_gyro(GyroReading),
+        });
+        assert_close("survey_launch ukf", &ukf, &run_interpreted(&model, Method::Ukf, &script), MATCH_RANDOM);
+    }
+
+    /// The same for the differential-drive robot, whose kernels skip the most zeros.
+    #[test]
+    fn pallet_robot_follows_the_interpreter_on_random_scripts(
+        script in prop::collection::vec(pallet_robot_step(), 1..14)
+    ) {
+        let model = load("pallet_robot");
+        let ekf = run_generated!(reckon_tests::pallet_robot_ekf_f64, f64, &script, {
+            0 => correct_wheels(WheelsReading),
+            1 => correct_gyro(GyroReading),
+            2 => correct_floor_tag(FloorTagReading, tag_east, tag_north),
+        });
+        assert_close("pallet_robot ekf", &ekf, &run_interpreted(&model, Method::Ekf, &script), MATCH_RANDOM);
+    }
 }

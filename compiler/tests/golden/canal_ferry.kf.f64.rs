@@ -10,7 +10,7 @@ use reckon_runtime::nalgebra::{ArrayStorage, ComplexField, Const, SMatrix, SVect
 use reckon_runtime::{
     CorrectError, Health, InitError, Innovation, KalmanFilter, PredictError,
 };
-/// Default innovation gate of sensor `lidar`: the chi-square quantile of probability 0.995 for 1 degrees of freedom (computed at build time), compared with the normalised innovation squared.
+/// Default innovation gate of sensor `lidar`: the 99.5 % quantile of the chi-square distribution with 1 degrees of freedom (computed at build time), compared with the normalised innovation squared.
 pub const LIDAR_GATE: f64 = 7.879438576622402_f64;
 /// A state of `canal_ferry`: the estimate's mean, or per-component standard deviations, in SI units.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]

@@ -10,7 +10,7 @@ use reckon_runtime::nalgebra::{ArrayStorage, ComplexField, Const, SMatrix, SVect
 use reckon_runtime::{
     CorrectError, Health, InitError, Innovation, KalmanFilter, PredictError,
 };
-/// Default innovation gate of sensor `laser`: the chi-square quantile of probability 0.999 for 1 degrees of freedom (computed at build time), compared with the normalised innovation squared.
+/// Default innovation gate of sensor `laser`: the 99.9 % quantile of the chi-square distribution with 1 degrees of freedom (computed at build time), compared with the normalised innovation squared.
 pub const LASER_GATE: f32 = 10.827566_f32;
 /// A state of `rail_cart`: the estimate's mean, or per-component standard deviations, in SI units.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]

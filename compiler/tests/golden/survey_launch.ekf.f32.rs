@@ -12,7 +12,7 @@ use reckon_runtime::nalgebra::{
 use reckon_runtime::{
     CorrectError, Health, InitError, Innovation, KalmanFilter, PredictError,
 };
-/// Default innovation gate of sensor `transponder`: the chi-square quantile of probability 0.99 for 2 degrees of freedom (computed at build time), compared with the normalised innovation squared.
+/// Default innovation gate of sensor `transponder`: the 99 % quantile of the chi-square distribution with 2 degrees of freedom (computed at build time), compared with the normalised innovation squared.
 pub const TRANSPONDER_GATE: f32 = 9.2103405_f32;
 /// A state of `survey_launch`: the estimate's mean, or per-component standard deviations, in SI units.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]

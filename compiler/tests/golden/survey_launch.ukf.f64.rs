@@ -13,7 +13,7 @@ use reckon_runtime::{
     CorrectError, Health, InitError, Innovation, KalmanFilter, PredictError,
     UnscentedWeights,
 };
-/// Default innovation gate of sensor `transponder`: the chi-square quantile of probability 0.99 for 2 degrees of freedom (computed at build time), compared with the normalised innovation squared.
+/// Default innovation gate of sensor `transponder`: the 99 % quantile of the chi-square distribution with 2 degrees of freedom (computed at build time), compared with the normalised innovation squared.
 pub const TRANSPONDER_GATE: f64 = 9.21034037197617_f64;
 /// Sigma-point weights for alpha = 1, beta = 2, kappa = 0 (computed at build time).
 const WEIGHTS: UnscentedWeights<f64> = UnscentedWeights {

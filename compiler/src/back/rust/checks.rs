@@ -37,6 +37,7 @@ pub(crate) fn check(
     if options.method == Method::Ukf {
         errors.extend(unscented_parameters(model, options));
     }
+    errors.extend(gate_thresholds(model));
     if !errors.is_empty() {
         return Err(errors);
     }
@@ -169,6 +170,31 @@ fn unscented_parameters(model: &Model, options: &EstimatorOptions) -> Vec<Diagno
         ),
     )
     .with_hint("use alpha in (0, 1] and kappa >= 0")]
+}
+
+/// The checker keeps gate probabilities in (0, 1), where every quantile exists; a
+/// gate without one would silently reject every reading, so it is refused.
+fn gate_thresholds(model: &Model) -> Vec<Diagnostic> {
+    model
+        .sensors
+        .iter()
+        .filter_map(|sensor| {
+            let gate = sensor.gate?;
+            let dof = sensor.components.len() as u32;
+            crate::stats::chi2_quantile(gate.probability, dof)
+                .is_none()
+                .then(|| {
+                    Diagnostic::new(
+                        codes::INTERNAL,
+                        gate.span,
+                        format!(
+                            "no chi-square quantile for probability {} with {dof} degrees of freedom",
+                            gate.probability
+                        ),
+                    )
+                })
+        })
+        .collect()
 }
 
 fn initial_beliefs(model: &Model) -> Vec<Diagnostic> {

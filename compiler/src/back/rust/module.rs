@@ -158,8 +158,9 @@ fn constants(ctx: &Context) -> TokenStream {
             let name = ctx.gate_constant(index);
             let value = ctx.number(threshold);
             let doc = doc(format!(
-                "Default innovation gate of sensor `{}`: the chi-square quantile of probability {} for {dof} degrees of freedom (computed at build time), compared with the normalised innovation squared.",
-                sensor.name, gate.probability
+                "Default innovation gate of sensor `{}`: the {} % quantile of the chi-square distribution with {dof} degrees of freedom (computed at build time), compared with the normalised innovation squared.",
+                sensor.name,
+                percent(gate.probability)
             ));
             Some(quote! {
                 #doc
@@ -209,6 +210,13 @@ fn constants(ctx: &Context) -> TokenStream {
         #(#gates)*
         #weights
     }
+}
+
+/// A probability as a percentage without the round-off of the division by 100
+/// (`0.9990000000000001` reads `99.9`).
+fn percent(probability: f64) -> String {
+    let text = format!("{:.9}", probability * 100.0);
+    text.trim_end_matches('0').trim_end_matches('.').to_string()
 }
 
 /// `to_array` and `from_array`: the fields in declaration order, for logging and for

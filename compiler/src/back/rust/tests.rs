@@ -240,3 +240,31 @@ fn models_built_in_rust_generate_too() {
         assert!(generated.code.contains("pub struct Estimator"));
     }
 }
+
+#[test]
+fn a_gate_without_a_quantile_is_refused_rather_than_rejecting_everything() {
+    let text = spec("rail_cart");
+    let mut model = check::check_source(&text).model.expect("demo spec checks");
+    let gate = model.sensors[0].gate.as_mut().expect("the laser is gated");
+    gate.probability = 1.0;
+    let diagnostics = generate_from_model("rail_cart", &text, &model, &EstimatorOptions::default())
+        .expect_err("refused");
+    assert_eq!(diagnostics[0].code, codes::INTERNAL);
+}
+
+#[test]
+fn the_generated_code_page_lists_every_back_end_code() {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("../docs/generated-code.md");
+    let page = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    let missing: Vec<String> = codes::ALL
+        .iter()
+        .filter(|c| c.id.starts_with("E06") || c.id.starts_with("W085"))
+        .map(|c| format!("| {} | {} |", c.id, c.title))
+        .filter(|row| !page.contains(row.as_str()))
+        .collect();
+    assert!(
+        missing.is_empty(),
+        "rows missing from docs/generated-code.md:\n{}",
+        missing.join("\n")
+    );
+}

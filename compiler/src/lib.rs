@@ -9,6 +9,7 @@
 pub mod back;
 pub mod check;
 pub mod diag;
+pub mod ir;
 pub mod model;
 pub mod options;
 pub mod project;

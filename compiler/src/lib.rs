@@ -7,6 +7,7 @@
 //! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
 
 pub mod back;
+pub mod build;
 pub mod check;
 pub mod diag;
 pub mod ir;

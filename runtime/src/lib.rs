@@ -70,6 +70,10 @@ pub mod model;
 pub mod outcome;
 pub mod unscented;
 
+/// The linear-algebra crate the filters are written in, re-exported so generated modules
+/// name its types and math traits (`ComplexField`, `RealField`) through this crate.
+pub use nalgebra;
+
 #[cfg(test)]
 mod test_models;
 

@@ -3,4 +3,6 @@
 //! `output` owns how generated files reach a repository (header, hashing,
 //! write-if-changed, check mode).
 
+pub mod interp;
 pub mod output;
+pub mod rust;

@@ -350,13 +350,21 @@ mod tests {
             prop_assume!(!near_kink(&mut arena, root, [x0, x1], 4.0 * h));
             prop_assume!(at([x0, x1]).is_finite() && at([x0, x1]).abs() < 1e6);
             for (k, &e) in exact.iter().enumerate() {
-                let mut plus = [x0, x1];
-                let mut minus = [x0, x1];
-                plus[k] += h;
-                minus[k] -= h;
-                let fd = (at(plus) - at(minus)) / (2.0 * h);
-                prop_assume!(fd.is_finite() && e.is_finite() && e.abs() < 1e5);
-                let scale = e.abs().max(fd.abs()).max(1.0);
+                let central = |step: f64| {
+                    let mut plus = [x0, x1];
+                    let mut minus = [x0, x1];
+                    plus[k] += step;
+                    minus[k] -= step;
+                    (at(plus) - at(minus)) / (2.0 * step)
+                };
+                let (coarse, fine) = (central(h), central(h / 2.0));
+                prop_assume!(coarse.is_finite() && fine.is_finite() && e.is_finite() && e.abs() < 1e5);
+                let scale = e.abs().max(fine.abs()).max(1.0);
+                // Random trees can oscillate so fast that no difference quotient at
+                // this step has converged; those points say nothing either way.
+                prop_assume!((coarse - fine).abs() <= 1e-4 * scale);
+                // Richardson extrapolation: the h^2 error terms cancel.
+                let fd = (4.0 * fine - coarse) / 3.0;
                 prop_assert!((e - fd).abs() <= 1e-5 * scale, "d/dx{} exact {} fd {}", k, e, fd);
             }
         }

@@ -19,6 +19,10 @@
 
 use std::collections::HashMap;
 
+use nalgebra::{DMatrix, Dyn};
+use reckon_runtime::expm::{expm, van_loan, ExpmError};
+use reckon_runtime::Real;
+
 use crate::model::{Model, ProcessNoiseKind};
 
 use super::lower::Integrator;
@@ -56,10 +60,10 @@ pub enum NoiseMethod {
 /// Linear time-invariant continuous motion `x' = A x + B u + c + L w`, `w` white
 /// with density `Qc`; matrices row-major, in SI.
 ///
-/// When [`Method::MatrixExponential`] is used, a back end computes, for each step:
-/// `Phi = expm(A dt)`; `Gamma` = the top-right block of `expm([[A, I], [0, 0]] dt)`;
-/// and with `V = expm([[-A, M], [0, A^T]] dt)`, `Qd = Phi * V[0..n, n..2n]`
-/// (Van Loan, IEEE Trans. Automatic Control 23(3), 1978).
+/// When [`Method::MatrixExponential`] is used, a back end computes, for each step,
+/// with the runtime's `expm` and `van_loan`: `Phi = expm(A dt)`; `Gamma` = the
+/// top-right block of `expm([[A, I], [0, 0]] dt)`; and `Qd` from Van Loan's block
+/// `[[-A, M], [0, A^T]] dt`. [`LinearSystem::runtime_matrices`] does exactly that.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LinearSystem {
     /// Number of states.
@@ -77,6 +81,46 @@ pub struct LinearSystem {
     pub noise_density: Vec<f64>,
     /// True when `A` is nilpotent (the series are finite).
     pub nilpotent: bool,
+}
+
+/// Run-time matrices as symbol values: `(columns, row-major entries)` per matrix.
+pub type RuntimeValues<T> = HashMap<RuntimeMatrix, (usize, Vec<T>)>;
+
+impl LinearSystem {
+    /// `Phi`, `Gamma` and `Qd` for a step `dt`, computed with the runtime's matrix
+    /// exponential exactly as generated code does, ready for
+    /// [`Bindings::runtime`](super::eval::Bindings).
+    pub fn runtime_matrices<T: Real>(&self, dt: T) -> Result<RuntimeValues<T>, ExpmError> {
+        let n = self.states;
+        let matrix = |values: &[f64]| {
+            DMatrix::from_iterator(n, n, values.iter().map(|&v| nalgebra::convert::<f64, T>(v)))
+                .transpose()
+        };
+        let a = matrix(&self.a);
+        let discretised = van_loan(&a, &matrix(&self.noise_density), dt, Dyn(2 * n))?;
+        // Gamma: the top-right block of exp([[A, I], [0, 0]] dt).
+        let mut block = DMatrix::<T>::zeros(2 * n, 2 * n);
+        for i in 0..n {
+            for j in 0..n {
+                block[(i, j)] = a[(i, j)] * dt;
+            }
+            block[(i, n + i)] = dt;
+        }
+        let exponential = expm(&block)?;
+        let row_major = |m: &DMatrix<T>| m.transpose().as_slice().to_vec();
+        let gamma = DMatrix::from_fn(n, n, |i, j| exponential[(i, n + j)]);
+        Ok(HashMap::from([
+            (
+                RuntimeMatrix::Transition,
+                (n, row_major(&discretised.transition)),
+            ),
+            (RuntimeMatrix::InputGain, (n, row_major(&gamma))),
+            (
+                RuntimeMatrix::ProcessNoise,
+                (n, row_major(&discretised.noise)),
+            ),
+        ]))
+    }
 }
 
 /// What discretisation was done, and why.
@@ -663,36 +707,8 @@ mod tests {
         }
     }
 
-    /// The documented run-time recipe, computed with nalgebra's matrix exponential.
-    fn runtime_matrices(sys: &LinearSystem, dt: f64) -> Bindings<f64> {
-        use nalgebra::DMatrix;
-        let n = sys.states;
-        let a = DMatrix::from_row_slice(n, n, &sys.a);
-        let m = DMatrix::from_row_slice(n, n, &sys.noise_density);
-        let phi = (&a * dt).exp();
-        let mut block = DMatrix::zeros(2 * n, 2 * n);
-        block.view_mut((0, 0), (n, n)).copy_from(&a);
-        block.view_mut((0, n), (n, n)).fill_with_identity();
-        let gamma = (block * dt).exp().view((0, n), (n, n)).into_owned();
-        let mut van_loan = DMatrix::zeros(2 * n, 2 * n);
-        van_loan.view_mut((0, 0), (n, n)).copy_from(&(-&a));
-        van_loan.view_mut((0, n), (n, n)).copy_from(&m);
-        van_loan.view_mut((n, n), (n, n)).copy_from(&a.transpose());
-        let v = (van_loan * dt).exp();
-        let qd = &phi * v.view((0, n), (n, n));
-        let row_major = |x: &DMatrix<f64>| x.transpose().as_slice().to_vec();
-        let mut b = Bindings::new(vec![], vec![], dt);
-        b.runtime
-            .insert(RuntimeMatrix::Transition, (n, row_major(&phi)));
-        b.runtime
-            .insert(RuntimeMatrix::InputGain, (n, row_major(&gamma)));
-        b.runtime
-            .insert(RuntimeMatrix::ProcessNoise, (n, row_major(&qd)));
-        b
-    }
-
     #[test]
-    fn runtime_exponential_recipe_matches_scipy_expm() {
+    fn runtime_exponential_path_matches_scipy_expm() {
         // Reference: tests/reference/expm_reference.py (scipy.linalg.expm, Van Loan).
         let r = &reference()["oscillator"];
         assert!(r.is_object(), "reference file missing the oscillator");
@@ -705,9 +721,11 @@ mod tests {
         assert_eq!(sys.a, vec![0.0, 1.0, -4.0, -0.5]);
         assert!(!sys.nilpotent);
         let dt = r["dt"].as_f64().unwrap_or(f64::NAN);
-        let mut at = runtime_matrices(sys, dt);
-        at.states = numbers(&r["x"]);
-        at.inputs = numbers(&r["u"]);
+        let mut at = Bindings::new(numbers(&r["x"]), numbers(&r["u"]), dt);
+        at.runtime = match sys.runtime_matrices(dt) {
+            Ok(values) => values,
+            Err(e) => panic!("matrix exponential failed: {e:?}"),
+        };
         let q_white = eval_matrix(&l, &l.q_white, &at);
         let x_next = Evaluator::new(&l.arena, &l.transition).eval(&at);
         let f = eval_matrix(&l, &l.f_jac, &at);

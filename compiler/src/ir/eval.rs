@@ -17,7 +17,7 @@ use std::fmt::Debug;
 use std::ops::{Add, Div, Mul, Neg, Sub};
 
 use super::node::{Binary, Node, NodeId, Symbol, Unary};
-use super::{Arena, RuntimeMatrix};
+use super::{Arena, RuntimeValues};
 
 /// The floating-point operations the IR needs; implemented for `f32` and `f64`.
 pub trait Float:
@@ -30,10 +30,6 @@ pub trait Float:
     + Div<Output = Self>
     + Neg<Output = Self>
 {
-    /// pi in this precision.
-    const PI: Self;
-    /// 2 pi in this precision.
-    const TAU: Self;
     /// Zero.
     const ZERO: Self;
     /// One.
@@ -70,19 +66,17 @@ pub trait Float:
     fn abs(self) -> Self;
     /// `self ^ e`
     fn powf(self, e: Self) -> Self;
-    /// smallest integer not below
-    fn ceil(self) -> Self;
     /// minimum (the non-NaN operand when one is NaN)
     fn min(self, b: Self) -> Self;
     /// maximum (the non-NaN operand when one is NaN)
     fn max(self, b: Self) -> Self;
+    /// The angle wrapped to `(-pi, pi]` by the runtime's wrapping function.
+    fn wrap_angle(self) -> Self;
 }
 
 macro_rules! impl_float {
     ($t:ident) => {
         impl Float for $t {
-            const PI: $t = std::$t::consts::PI;
-            const TAU: $t = std::$t::consts::TAU;
             const ZERO: $t = 0.0;
             const ONE: $t = 1.0;
             const NAN: $t = $t::NAN;
@@ -131,14 +125,14 @@ macro_rules! impl_float {
             fn powf(self, e: $t) -> $t {
                 $t::powf(self, e)
             }
-            fn ceil(self) -> $t {
-                $t::ceil(self)
-            }
             fn min(self, b: $t) -> $t {
                 $t::min(self, b)
             }
             fn max(self, b: $t) -> $t {
                 $t::max(self, b)
+            }
+            fn wrap_angle(self) -> $t {
+                reckon_runtime::angle::wrap_angle(self)
             }
         }
     };
@@ -147,13 +141,13 @@ macro_rules! impl_float {
 impl_float!(f32);
 impl_float!(f64);
 
-/// Wraps an angle to `(-pi, pi]`: `x - 2 pi ceil((x - pi) / (2 pi))`.
+/// Wraps an angle to `(-pi, pi]` with `reckon_runtime::angle::wrap_angle`.
 ///
-/// Every back end wraps with this formula (residuals of `wrap` components, next
-/// values of `wrap` states), so a generated filter and the simulator agree bit for
-/// bit on which side of the cut an angle lands.
+/// Every back end wraps with that one function (residuals of `wrap` components,
+/// next values of `wrap` states), so a generated filter and the simulator agree bit
+/// for bit on which side of the cut an angle lands.
 pub fn wrap_angle<T: Float>(x: T) -> T {
-    x - T::TAU * ((x - T::PI) / T::TAU).ceil()
+    x.wrap_angle()
 }
 
 /// The value of a one-operand node.
@@ -228,8 +222,9 @@ pub struct Bindings<T> {
     pub readings: Vec<T>,
     /// Step length in seconds.
     pub dt: T,
-    /// Run-time matrices (row-major, `n x n`), when the model needs them.
-    pub runtime: HashMap<RuntimeMatrix, (usize, Vec<T>)>,
+    /// Run-time matrices, when the model needs them (see
+    /// [`LinearSystem::runtime_matrices`](super::LinearSystem::runtime_matrices)).
+    pub runtime: RuntimeValues<T>,
 }
 
 impl<T: Float> Bindings<T> {
@@ -242,7 +237,7 @@ impl<T: Float> Bindings<T> {
             args: Vec::new(),
             readings: Vec::new(),
             dt,
-            runtime: HashMap::new(),
+            runtime: RuntimeValues::new(),
         }
     }
 }

@@ -32,7 +32,7 @@ mod unit_check;
 pub mod verify;
 
 #[cfg(test)]
-mod test_models;
+pub(crate) mod test_models;
 
 use std::fmt;
 
@@ -40,7 +40,7 @@ use crate::diag::{codes, Diagnostic, Span};
 
 pub use analysis::{Analysis, FunctionOps, Linearity, OpCounts};
 pub use arena::Arena;
-pub use discretise::{DiscretisationInfo, LinearSystem, Method, NoiseMethod};
+pub use discretise::{DiscretisationInfo, LinearSystem, Method, NoiseMethod, RuntimeValues};
 pub use dump::dump;
 pub use lower::{
     lower, Integrator, LowerOptions, Lowered, LoweredSensor, NoiseSource, NoiseSourceKind,

@@ -17,3 +17,5 @@ pub mod project;
 pub mod stats;
 pub mod syntax;
 pub mod units;
+pub mod sim;
+pub mod analyze;

@@ -65,7 +65,11 @@ impl fmt::Display for Direction {
                     .iter()
                     .map(|(name, weight, unit)| format!("{weight:+.3} {unit} of `{name}`"))
                     .collect();
-                write!(f, "moving together by {} changes no reading", terms.join(", "))
+                write!(
+                    f,
+                    "moving together by {} changes no reading",
+                    terms.join(", ")
+                )
             }
         }
     }
@@ -113,7 +117,10 @@ fn column_scales(model: &Model) -> Vec<f64> {
     model
         .initial
         .iter()
-        .map(|d| d.map_or(1.0, |d| d.variance().sqrt()).max(f64::MIN_POSITIVE))
+        .map(|d| {
+            d.map_or(1.0, |d| d.variance().sqrt())
+                .max(f64::MIN_POSITIVE)
+        })
         .collect()
 }
 
@@ -149,7 +156,10 @@ fn observability(model: &Model, lowered: &Lowered, point: &OperatingPoint) -> Ob
     let mut blocks: Vec<DVector<f64>> = Vec::with_capacity(rows.len() * n);
     let mut power = DMatrix::identity(n, n);
     for _ in 0..n {
-        blocks.extend(rows.iter().map(|r| (&power.transpose() * r).component_mul(&scales)));
+        blocks.extend(
+            rows.iter()
+                .map(|r| (&power.transpose() * r).component_mul(&scales)),
+        );
         power = &f * power;
     }
     let height = blocks.len().max(n);
@@ -231,7 +241,10 @@ pub fn analyze(model: &Model, lowered: &Lowered, points: &[OperatingPoint]) -> A
     AnalysisReport {
         model: model.name.clone(),
         discretisation: lowered.discretisation.reason.clone(),
-        observability: points.iter().map(|p| observability(model, lowered, p)).collect(),
+        observability: points
+            .iter()
+            .map(|p| observability(model, lowered, p))
+            .collect(),
         motion: analysis.motion,
         sensors: lowered
             .sensors
@@ -266,13 +279,23 @@ pub fn analyze_spec(
     let lowered = ir::lower(&model, &lower_options(options))?;
     let point = OperatingPoint {
         label: "the initial mean".into(),
-        state: model.initial.iter().map(|d| d.map_or(0.0, |d| d.mean())).collect(),
+        state: model
+            .initial
+            .iter()
+            .map(|d| d.map_or(0.0, |d| d.mean()))
+            .collect(),
         input: vec![0.0; model.inputs.len()],
         dt,
         sensor_args: model
             .sensors
             .iter()
-            .map(|s| if s.args.is_empty() { vec![Vec::new()] } else { Vec::new() })
+            .map(|s| {
+                if s.args.is_empty() {
+                    vec![Vec::new()]
+                } else {
+                    Vec::new()
+                }
+            })
             .collect(),
     };
     Ok(analyze(&model, &lowered, &[point]))
@@ -282,7 +305,10 @@ pub fn analyze_spec(
 /// initial mean, fixed truth values taken over): at the start, half way and at the
 /// end, with the inputs then in force and every argument set of the sensors the
 /// scenario reads.
-pub fn analyze_scenario(project_dir: &Path, scenario: &Scenario) -> Result<AnalysisReport, SimError> {
+pub fn analyze_scenario(
+    project_dir: &Path,
+    scenario: &Scenario,
+) -> Result<AnalysisReport, SimError> {
     let prepared = sim::prepare(project_dir, scenario)?;
     let (model, lowered, plan) = (&prepared.model, &prepared.lowered, &prepared.plan);
     let motion = InterpretedMotion::new(lowered);
@@ -341,14 +367,22 @@ impl fmt::Display for AnalysisReport {
             "observability (rank of [H; H F; ...; H F^(n-1)], states scaled by their initial sigma):"
         )?;
         for o in &self.observability {
-            let verdict = if o.rank == o.states { "observable" } else { "NOT observable" };
+            let verdict = if o.rank == o.states {
+                "observable"
+            } else {
+                "NOT observable"
+            };
             writeln!(
                 f,
                 "  at {}: rank {} of {} - {verdict} (sensors: {})",
                 o.label,
                 o.rank,
                 o.states,
-                if o.sensors.is_empty() { "none".to_string() } else { o.sensors.join(", ") }
+                if o.sensors.is_empty() {
+                    "none".to_string()
+                } else {
+                    o.sensors.join(", ")
+                }
             )?;
             for d in &o.unobservable {
                 writeln!(f, "    unobservable: {d}")?;
@@ -361,12 +395,20 @@ impl fmt::Display for AnalysisReport {
         writeln!(f)?;
         writeln!(f, "sparsity (x: may be nonzero, .: structural zero):")?;
         for (name, pattern) in &self.sparsity {
-            writeln!(f, "  {name} ({} of {} entries):", pattern.count(), pattern.rows * pattern.cols)?;
+            writeln!(
+                f,
+                "  {name} ({} of {} entries):",
+                pattern.count(),
+                pattern.rows * pattern.cols
+            )?;
             for line in pattern.to_string().lines() {
                 writeln!(f, "    {line}")?;
             }
         }
-        writeln!(f, "operations per predict (each function's shared nodes once):")?;
+        writeln!(
+            f,
+            "operations per predict (each function's shared nodes once):"
+        )?;
         for ops in &self.predict_ops {
             writeln!(f, "  {}: {}", ops.name, counts(&ops.counts))?;
         }
@@ -403,23 +445,34 @@ mod tests {
     #[test]
     fn speed_alone_leaves_position_unobservable() {
         let speed_only = shuttle("sensor odometer { rate : m/s = speed  noise ~ normal(0.1 m/s) }");
-        let report = analyze_spec(&speed_only, &EstimatorOptions::default(), 0.5).expect("analysed");
+        let report =
+            analyze_spec(&speed_only, &EstimatorOptions::default(), 0.5).expect("analysed");
         let o = &report.observability[0];
         assert_eq!((o.rank, o.states), (1, 2));
         assert_eq!(o.unobservable.len(), 1);
-        assert_eq!(o.unobservable[0].components, [("position".to_string(), 1.0, "m".to_string())]);
-        assert!(report.to_string().contains("unobservable: `position` alone"), "{report}");
+        assert_eq!(
+            o.unobservable[0].components,
+            [("position".to_string(), 1.0, "m".to_string())]
+        );
+        assert!(
+            report
+                .to_string()
+                .contains("unobservable: `position` alone"),
+            "{report}"
+        );
 
         let with_position = shuttle(
             "sensor odometer { rate : m/s = speed  noise ~ normal(0.1 m/s) }
              sensor marker { at : m = position  noise ~ normal(0.5 m) }",
         );
-        let report = analyze_spec(&with_position, &EstimatorOptions::default(), 0.5).expect("analysed");
+        let report =
+            analyze_spec(&with_position, &EstimatorOptions::default(), 0.5).expect("analysed");
         assert_eq!(report.observability[0].rank, 2);
         assert!(report.observability[0].unobservable.is_empty());
 
         let position_only = shuttle("sensor marker { at : m = position  noise ~ normal(0.5 m) }");
-        let report = analyze_spec(&position_only, &EstimatorOptions::default(), 0.5).expect("analysed");
+        let report =
+            analyze_spec(&position_only, &EstimatorOptions::default(), 0.5).expect("analysed");
         assert_eq!(report.observability[0].rank, 2, "{report}");
     }
 
@@ -437,13 +490,19 @@ mod tests {
         assert_eq!(o.rank, 1);
         let components = &o.unobservable[0].components;
         assert_eq!(components.len(), 2);
-        assert!((components[0].1 - 1.0).abs() < 1e-9 && (components[1].1 - 1.0).abs() < 1e-9, "{components:?}");
+        assert!(
+            (components[0].1 - 1.0).abs() < 1e-9 && (components[1].1 - 1.0).abs() < 1e-9,
+            "{components:?}"
+        );
     }
 
     #[test]
     fn report_lists_linearity_sparsity_and_operation_counts() {
-        let text = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/../specs/pallet_robot.reckon"))
-            .expect("demo spec");
+        let text = std::fs::read_to_string(concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/../specs/pallet_robot.reckon"
+        ))
+        .expect("demo spec");
         let report = analyze_spec(&text, &EstimatorOptions::default(), 0.01).expect("analysed");
         assert!(matches!(report.motion, Linearity::Nonlinear { .. }));
         let names: Vec<&str> = report.predict_ops.iter().map(|o| o.name.as_str()).collect();

@@ -6,6 +6,7 @@
 //! Stages, in pipeline order: [`syntax`] (text to AST), [`check`] (AST to the checked
 //! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
 
+pub mod analyze;
 pub mod back;
 pub mod build;
 pub mod check;
@@ -14,8 +15,7 @@ pub mod ir;
 pub mod model;
 pub mod options;
 pub mod project;
+pub mod sim;
 pub mod stats;
 pub mod syntax;
 pub mod units;
-pub mod sim;
-pub mod analyze;

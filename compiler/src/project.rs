@@ -188,7 +188,10 @@ mod tests {
         let [scenario] = project.scenarios.as_slice() else {
             panic!("one scenario expected");
         };
-        assert_eq!((scenario.name.as_str(), scenario.runs, scenario.seed), ("cruise", 50, 7));
+        assert_eq!(
+            (scenario.name.as_str(), scenario.runs, scenario.seed),
+            ("cruise", 50, 7)
+        );
         assert_eq!(scenario.options().method, Method::Ukf);
         assert_eq!(scenario.process_noise_scale, 0.1);
         assert_eq!(scenario.sensors[0].name.get_ref(), "beacon");
@@ -196,7 +199,11 @@ mod tests {
             scenario.inputs["accel"].get_ref(),
             crate::sim::InputValue::Schedule(pieces) if pieces.len() == 2
         ));
-        assert!(text[scenario.span.start..scenario.span.end].contains("cruise"));
+        let table = &text[scenario.span.start..scenario.span.end];
+        assert_eq!(
+            table, "[[scenario]]",
+            "diagnostics about the table point at its header"
+        );
         let step = &text[scenario.step.span()];
         assert_eq!(step, "\"10 ms\"");
     }

@@ -113,7 +113,9 @@ pub fn quantity(text: &str) -> Result<(f64, Dimension), Vec<Diagnostic>> {
             Span::new(0, text.len()),
             format!("`{text}` is not a single quantity"),
         )
-        .with_hint("write a number with its unit, such as \"10 ms\" or \"0.2 m/s^2\"")]),
+        .with_hint(
+            "write a number with its unit, such as \"10 ms\" or \"0.2 m/s^2\"",
+        )]),
     }
 }
 

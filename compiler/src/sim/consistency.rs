@@ -142,8 +142,14 @@ mod tests {
         ];
         for (runs, dof, lower, upper) in rows {
             let band = Band::averaged(runs, dof).expect("valid");
-            assert!((band.lower - lower).abs() <= 1e-9 * lower, "{runs} {dof}: {band:?}");
-            assert!((band.upper - upper).abs() <= 1e-9 * upper, "{runs} {dof}: {band:?}");
+            assert!(
+                (band.lower - lower).abs() <= 1e-9 * lower,
+                "{runs} {dof}: {band:?}"
+            );
+            assert!(
+                (band.upper - upper).abs() <= 1e-9 * upper,
+                "{runs} {dof}: {band:?}"
+            );
         }
         assert_eq!(Band::averaged(0, 2), None);
     }
@@ -156,11 +162,23 @@ mod tests {
         fn runs(v: &[f64]) -> Vec<&[f64]> {
             vec![v; 50]
         }
-        assert_eq!(Check::of_runs(&runs(&inside), 2).expect("ok").verdict, Verdict::Consistent);
-        assert_eq!(Check::of_runs(&runs(&high), 2).expect("ok").verdict, Verdict::Optimistic);
+        assert_eq!(
+            Check::of_runs(&runs(&inside), 2).expect("ok").verdict,
+            Verdict::Consistent
+        );
+        assert_eq!(
+            Check::of_runs(&runs(&high), 2).expect("ok").verdict,
+            Verdict::Optimistic
+        );
         let pessimistic = Check::of_runs(&runs(&low), 2).expect("ok");
-        assert_eq!((pessimistic.verdict, pessimistic.below, pessimistic.inside), (Verdict::Pessimistic, 10, 0.0));
+        assert_eq!(
+            (pessimistic.verdict, pessimistic.below, pessimistic.inside),
+            (Verdict::Pessimistic, 10, 0.0)
+        );
         let with_nan = vec![f64::NAN; 10];
-        assert_eq!(Check::of_runs(&runs(&with_nan), 2).expect("ok").verdict, Verdict::Optimistic);
+        assert_eq!(
+            Check::of_runs(&runs(&with_nan), 2).expect("ok").verdict,
+            Verdict::Optimistic
+        );
     }
 }

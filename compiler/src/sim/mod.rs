@@ -89,7 +89,10 @@ pub(crate) fn prepare(project_dir: &Path, scenario: &Scenario) -> Result<Prepare
         return Err(SimError::Scenario(vec![Diagnostic::new(
             codes::SCENARIO_METHOD,
             scenario.span,
-            format!("the simulator cannot run method `{}`", options.method.name()),
+            format!(
+                "the simulator cannot run method `{}`",
+                options.method.name()
+            ),
         )
         .with_hint("choose `kf`, `ekf` or `ukf` for the scenario")]));
     }
@@ -204,7 +207,10 @@ fn setup_error(error: run::SetupError, prepared: &Prepared, scenario: &Scenario)
                 diagnostics: vec![Diagnostic::new(
                     codes::SCENARIO_NO_INITIAL_BELIEF,
                     var.span,
-                    format!("state `{}` has no initial belief to start the filter from", var.name),
+                    format!(
+                        "state `{}` has no initial belief to start the filter from",
+                        var.name
+                    ),
                 )
                 .with_hint(format!(
                     "add `{} ~ normal(<mean> {unit}, <sigma> {unit})` to the `initial` block",
@@ -300,12 +306,20 @@ fn aggregate(scenario: &Scenario, prepared: &Prepared, records: Vec<run::RunReco
     let rms_per_step = (0..plan.steps)
         .map(|step| {
             (0..n)
-                .map(|state| rms(records.iter().filter_map(|r| r.errors.get(step).map(|e| e[state]))))
+                .map(|state| {
+                    rms(records
+                        .iter()
+                        .filter_map(|r| r.errors.get(step).map(|e| e[state])))
+                })
                 .collect()
         })
         .collect();
     let rms_total = (0..n)
-        .map(|state| rms(records.iter().flat_map(|r| r.errors.iter().map(move |e| e[state]))))
+        .map(|state| {
+            rms(records
+                .iter()
+                .flat_map(|r| r.errors.iter().map(move |e| e[state])))
+        })
         .collect();
     SimReport {
         scenario: scenario.name.clone(),
@@ -332,13 +346,21 @@ fn aggregate(scenario: &Scenario, prepared: &Prepared, records: Vec<run::RunReco
         sensors,
         rms_per_step,
         rms: rms_total,
-        sample: records.first().and_then(|r| r.trace.clone()).unwrap_or_default(),
+        sample: records
+            .first()
+            .and_then(|r| r.trace.clone())
+            .unwrap_or_default(),
         rejected: records.iter().map(|r| r.rejected).sum(),
     }
 }
 
 fn check_line(out: &mut String, what: &str, check: &Check) {
-    let finite: Vec<f64> = check.mean.iter().copied().filter(|v| v.is_finite()).collect();
+    let finite: Vec<f64> = check
+        .mean
+        .iter()
+        .copied()
+        .filter(|v| v.is_finite())
+        .collect();
     let average = finite.iter().sum::<f64>() / finite.len().max(1) as f64;
     let _ = writeln!(
         out,
@@ -397,7 +419,11 @@ impl SimReport {
             .collect();
         let _ = writeln!(out, "RMS error: {}", errors.join(", "));
         if self.rejected > 0 {
-            let _ = writeln!(out, "{} predictions or corrections rejected by the runtime", self.rejected);
+            let _ = writeln!(
+                out,
+                "{} predictions or corrections rejected by the runtime",
+                self.rejected
+            );
         }
         out
     }
@@ -444,7 +470,8 @@ impl SimReport {
 
 /// A unit made safe for a CSV column name (`m/s^2` -> `m_per_s^2`).
 fn csv_unit(unit: &str) -> String {
-    unit.replace('/', "_per_").replace([' ', '*', '·', ','], "_")
+    unit.replace('/', "_per_")
+        .replace([' ', '*', '·', ','], "_")
 }
 
 /// Writes the report into `out_dir` (created if needed): `states.svg` (truth,
@@ -454,11 +481,20 @@ fn csv_unit(unit: &str) -> String {
 pub fn write_outputs(report: &SimReport, out_dir: &Path) -> std::io::Result<Vec<PathBuf>> {
     std::fs::create_dir_all(out_dir)?;
     let mut files = vec![
-        ("states.svg", plot::states_svg(report).map_err(std::io::Error::other)?),
-        ("nees.svg", plot::nees_svg(report).map_err(std::io::Error::other)?),
+        (
+            "states.svg",
+            plot::states_svg(report).map_err(std::io::Error::other)?,
+        ),
+        (
+            "nees.svg",
+            plot::nees_svg(report).map_err(std::io::Error::other)?,
+        ),
     ];
     if !report.sensors.is_empty() {
-        files.push(("nis.svg", plot::nis_svg(report).map_err(std::io::Error::other)?));
+        files.push((
+            "nis.svg",
+            plot::nis_svg(report).map_err(std::io::Error::other)?,
+        ));
     }
     files.push(("steps.csv", report.steps_csv()));
     files.push(("readings.csv", report.readings_csv()));

@@ -32,8 +32,16 @@ const PANEL_HEIGHT: u32 = 260;
 
 /// The x and y extent of the finite points of `lines`, widened when degenerate.
 fn extent(lines: &[Line]) -> ((f64, f64), (f64, f64)) {
-    let points = lines.iter().flat_map(|l| l.points.iter()).filter(|(x, y)| x.is_finite() && y.is_finite());
-    let (mut x0, mut x1, mut y0, mut y1) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
+    let points = lines
+        .iter()
+        .flat_map(|l| l.points.iter())
+        .filter(|(x, y)| x.is_finite() && y.is_finite());
+    let (mut x0, mut x1, mut y0, mut y1) = (
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+    );
     for &(x, y) in points {
         x0 = x0.min(x);
         x1 = x1.max(x);
@@ -51,7 +59,7 @@ fn extent(lines: &[Line]) -> ((f64, f64), (f64, f64)) {
         }
     };
     let (x0, x1) = if x1 > x0 { (x0, x1) } else { widen(x0, x1) };
-    (( x0, x1), widen(y0, y1))
+    ((x0, x1), widen(y0, y1))
 }
 
 /// Draws `panels` one under the other into an SVG document.
@@ -79,7 +87,11 @@ fn figure(panels: &[Panel]) -> Result<String, String> {
                 .map_err(|e| e.to_string())?;
             for line in &panel.lines {
                 let color = line.color;
-                let finite = line.points.iter().copied().filter(|(x, y)| x.is_finite() && y.is_finite());
+                let finite = line
+                    .points
+                    .iter()
+                    .copied()
+                    .filter(|(x, y)| x.is_finite() && y.is_finite());
                 chart
                     .draw_series(LineSeries::new(finite, color.stroke_width(1)))
                     .map_err(|e| e.to_string())?
@@ -119,10 +131,26 @@ pub(crate) fn states_svg(report: &SimReport) -> Result<String, String> {
                 caption: format!("{} [{}]", state.name, state.unit),
                 y_label: state.unit.clone(),
                 lines: vec![
-                    Line { label: "truth".into(), points: series(&sample.truth, 0.0), color: TRUTH },
-                    Line { label: "estimate".into(), points: series(&sample.estimate, 0.0), color: ESTIMATE },
-                    Line { label: "estimate + 3 sigma".into(), points: series(&sample.estimate, 3.0), color: BAND },
-                    Line { label: "estimate - 3 sigma".into(), points: series(&sample.estimate, -3.0), color: BAND },
+                    Line {
+                        label: "truth".into(),
+                        points: series(&sample.truth, 0.0),
+                        color: TRUTH,
+                    },
+                    Line {
+                        label: "estimate".into(),
+                        points: series(&sample.estimate, 0.0),
+                        color: ESTIMATE,
+                    },
+                    Line {
+                        label: "estimate + 3 sigma".into(),
+                        points: series(&sample.estimate, 3.0),
+                        color: BAND,
+                    },
+                    Line {
+                        label: "estimate - 3 sigma".into(),
+                        points: series(&sample.estimate, -3.0),
+                        color: BAND,
+                    },
                 ],
             }
         })
@@ -138,11 +166,23 @@ fn check_panel(caption: String, times: &[f64], check: &Check) -> Panel {
         lines: vec![
             Line {
                 label: "average over runs".into(),
-                points: times.iter().copied().zip(check.mean.iter().copied()).collect(),
+                points: times
+                    .iter()
+                    .copied()
+                    .zip(check.mean.iter().copied())
+                    .collect(),
                 color: ESTIMATE,
             },
-            Line { label: "band lower".into(), points: flat(check.band.lower), color: BAND },
-            Line { label: "band upper".into(), points: flat(check.band.upper), color: BAND },
+            Line {
+                label: "band lower".into(),
+                points: flat(check.band.lower),
+                color: BAND,
+            },
+            Line {
+                label: "band upper".into(),
+                points: flat(check.band.upper),
+                color: BAND,
+            },
         ],
     }
 }
@@ -150,7 +190,10 @@ fn check_panel(caption: String, times: &[f64], check: &Check) -> Panel {
 /// Averaged NEES per step with its acceptance band.
 pub(crate) fn nees_svg(report: &SimReport) -> Result<String, String> {
     figure(&[check_panel(
-        format!("NEES, average of {} runs ({} dof)", report.runs, report.nees.dof),
+        format!(
+            "NEES, average of {} runs ({} dof)",
+            report.runs, report.nees.dof
+        ),
         &report.times,
         &report.nees,
     )])
@@ -161,7 +204,16 @@ pub(crate) fn nis_svg(report: &SimReport) -> Result<String, String> {
     let panels: Vec<Panel> = report
         .sensors
         .iter()
-        .map(|s| check_panel(format!("NIS {}, average of {} runs ({} dof)", s.name, report.runs, s.nis.dof), &s.times, &s.nis))
+        .map(|s| {
+            check_panel(
+                format!(
+                    "NIS {}, average of {} runs ({} dof)",
+                    s.name, report.runs, s.nis.dof
+                ),
+                &s.times,
+                &s.nis,
+            )
+        })
         .collect();
     figure(&panels)
 }

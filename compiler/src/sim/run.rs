@@ -288,7 +288,13 @@ impl<'a> Machinery<'a> {
     }
 
     /// The true state after a step of `dt` from `x` under input `u`.
-    fn truth_step(&self, x: &DVector<f64>, u: &DVector<f64>, dt: f64, rng: &mut Pcg64) -> DVector<f64> {
+    fn truth_step(
+        &self,
+        x: &DVector<f64>,
+        u: &DVector<f64>,
+        dt: f64,
+        rng: &mut Pcg64,
+    ) -> DVector<f64> {
         let n = self.lowered.state_count;
         let mut bindings = self.motion.spec.bindings(x, u, dt);
         bindings.noise = self
@@ -309,9 +315,14 @@ impl<'a> Machinery<'a> {
 
     /// The filter's starting belief: the spec's initial means and variances.
     fn initial_belief(&self) -> (DVector<f64>, DMatrix<f64>) {
-        let mean = DVector::from_iterator(self.initial.len(), self.initial.iter().map(Distribution::mean));
-        let variance =
-            DVector::from_iterator(self.initial.len(), self.initial.iter().map(Distribution::variance));
+        let mean = DVector::from_iterator(
+            self.initial.len(),
+            self.initial.iter().map(Distribution::mean),
+        );
+        let variance = DVector::from_iterator(
+            self.initial.len(),
+            self.initial.iter().map(Distribution::variance),
+        );
         (mean, DMatrix::from_diagonal(&variance))
     }
 
@@ -321,16 +332,24 @@ impl<'a> Machinery<'a> {
         let n = self.lowered.state_count;
         let mut truth = DVector::from_iterator(
             n,
-            self.initial.iter().zip(&self.plan.truth).map(|(d, fixed)| match fixed {
-                Some(value) => *value,
-                None => sample(d, &mut rng),
-            }),
+            self.initial
+                .iter()
+                .zip(&self.plan.truth)
+                .map(|(d, fixed)| match fixed {
+                    Some(value) => *value,
+                    None => sample(d, &mut rng),
+                }),
         );
         wrap_flagged(&mut truth, &self.lowered.state_wrap);
         let mut record = RunRecord {
             nees: Vec::with_capacity(self.plan.steps),
             errors: Vec::with_capacity(self.plan.steps),
-            nis: self.plan.sensors.iter().map(|s| Vec::with_capacity(s.times.len())).collect(),
+            nis: self
+                .plan
+                .sensors
+                .iter()
+                .map(|s| Vec::with_capacity(s.times.len()))
+                .collect(),
             gated: vec![0; self.plan.sensors.len()],
             rejected: 0,
             trace: keep_trace.then(Trace::default),
@@ -354,7 +373,9 @@ impl<'a> Machinery<'a> {
                 truth = self.truth_step(&truth, &u, dt, &mut rng);
                 let predicted = match &self.steps {
                     Steps::Linearised => filter.predict(&self.motion, &u, dt),
-                    Steps::Unscented(weights) => filter.predict_unscented(&self.motion, &u, dt, weights),
+                    Steps::Unscented(weights) => {
+                        filter.predict_unscented(&self.motion, &u, dt, weights)
+                    }
                 };
                 record.rejected += usize::from(predicted.is_err());
                 time = event.time;
@@ -407,7 +428,12 @@ impl<'a> Machinery<'a> {
         record.nis[schedule].push(nis);
     }
 
-    fn record_step(&self, filter: &KalmanFilter<f64, Dyn>, truth: &DVector<f64>, record: &mut RunRecord) {
+    fn record_step(
+        &self,
+        filter: &KalmanFilter<f64, Dyn>,
+        truth: &DVector<f64>,
+        record: &mut RunRecord,
+    ) {
         let mut error = truth - filter.state();
         wrap_flagged(&mut error, &self.lowered.state_wrap);
         let nees = filter
@@ -419,10 +445,17 @@ impl<'a> Machinery<'a> {
         record.errors.push(error.iter().copied().collect());
         if let Some(trace) = &mut record.trace {
             trace.truth.push(truth.iter().copied().collect());
-            trace.estimate.push(filter.state().iter().copied().collect());
             trace
-                .sigma
-                .push(filter.covariance().diagonal().iter().map(|v| v.max(0.0).sqrt()).collect());
+                .estimate
+                .push(filter.state().iter().copied().collect());
+            trace.sigma.push(
+                filter
+                    .covariance()
+                    .diagonal()
+                    .iter()
+                    .map(|v| v.max(0.0).sqrt())
+                    .collect(),
+            );
         }
     }
 }
@@ -452,8 +485,14 @@ mod tests {
     fn samples_have_the_distribution_moments() {
         let mut rng = Pcg64::seed_from_u64(3);
         let cases = [
-            Distribution::Normal { mean: 1.0, sigma: 2.0 },
-            Distribution::Triangle { mean: -1.0, half_width: 3.0 },
+            Distribution::Normal {
+                mean: 1.0,
+                sigma: 2.0,
+            },
+            Distribution::Triangle {
+                mean: -1.0,
+                half_width: 3.0,
+            },
             Distribution::Uniform { lo: 2.0, hi: 5.0 },
         ];
         for d in cases {
@@ -461,7 +500,10 @@ mod tests {
             let xs: Vec<f64> = (0..count).map(|_| sample(&d, &mut rng)).collect();
             let mean = xs.iter().sum::<f64>() / count as f64;
             let var = xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / count as f64;
-            assert!((mean - d.mean()).abs() < 0.02 * d.variance().sqrt().max(1.0), "{d:?}: {mean}");
+            assert!(
+                (mean - d.mean()).abs() < 0.02 * d.variance().sqrt().max(1.0),
+                "{d:?}: {mean}"
+            );
             assert!((var / d.variance() - 1.0).abs() < 0.02, "{d:?}: {var}");
         }
     }

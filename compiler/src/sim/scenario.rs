@@ -192,6 +192,23 @@ impl Plan {
     }
 }
 
+/// Where a quantity was written.
+#[derive(Debug, Clone, Copy)]
+enum At {
+    /// Exactly this TOML value.
+    Value(Span),
+    /// Somewhere inside this TOML value.
+    Within(Span),
+}
+
+impl At {
+    fn span(self) -> Span {
+        match self {
+            At::Value(span) | At::Within(span) => span,
+        }
+    }
+}
+
 fn span_of<T>(spanned: &Spanned<T>) -> Span {
     Span::new(spanned.span().start, spanned.span().end)
 }
@@ -203,20 +220,28 @@ struct Resolver<'m> {
 }
 
 impl Resolver<'_> {
-    /// A quantity of `dimension` written at `span` (the TOML value, quotes included).
+    /// A quantity of `dimension`. `at` is the span of the TOML value itself, or of
+    /// an enclosing value when the TOML parser gives no span for it (entries of
+    /// schedules and argument tables).
     fn quantity(
         &mut self,
         text: &QuantityText,
-        span: Span,
+        at: At,
         dimension: &Dimension,
         unit_hint: &str,
         what: &str,
     ) -> Option<f64> {
         let source = text.source();
+        let span = at.span();
         // Inside a TOML string the text starts after the opening quote.
-        let offset = match text {
-            QuantityText::Text(_) => span.start + 1,
-            QuantityText::Number(_) => span.start,
+        let place = |inner: Span| match (at, text) {
+            (At::Value(span), QuantityText::Text(_)) => {
+                Span::new(inner.start + span.start + 1, inner.end + span.start + 1)
+            }
+            (At::Value(span), QuantityText::Number(_)) => {
+                Span::new(inner.start + span.start, inner.end + span.start)
+            }
+            (At::Within(span), _) => span,
         };
         match check::quantity(&source) {
             Ok((value, found)) if found.compatible(dimension) => Some(value),
@@ -235,7 +260,7 @@ impl Resolver<'_> {
             Err(errors) => {
                 for mut error in errors {
                     for label in &mut error.labels {
-                        label.span = Span::new(label.span.start + offset, label.span.end + offset);
+                        label.span = place(label.span);
                     }
                     error.notes.push(format!("while reading {what}"));
                     self.errors.push(error);
@@ -264,7 +289,7 @@ impl Resolver<'_> {
     fn time(&mut self, text: &Spanned<QuantityText>, what: &str) -> Option<f64> {
         let value = self.quantity(
             text.get_ref(),
-            span_of(text),
+            At::Value(span_of(text)),
             &Dimension::base(crate::units::Base::Time),
             "10 ms",
             what,
@@ -369,17 +394,29 @@ fn resolve_inputs(r: &mut Resolver<'_>, scenario: &Scenario) -> Vec<Vec<(f64, f6
         let what = format!("input `{}`", input.name);
         let pieces = match written.get_ref() {
             InputValue::Constant(text) => r
-                .quantity(text, span, &input.unit.dimension, &input.unit.text, &what)
+                .quantity(
+                    text,
+                    At::Value(span),
+                    &input.unit.dimension,
+                    &input.unit.text,
+                    &what,
+                )
                 .map(|v| vec![(0.0, v)])
                 .unwrap_or_default(),
             InputValue::Schedule(entries) => {
                 let mut pieces: Vec<(f64, f64)> = entries
                     .iter()
                     .filter_map(|entry| {
-                        let from = r.quantity(&entry.from, span, &time, "12 s", "a schedule time");
+                        let from = r.quantity(
+                            &entry.from,
+                            At::Within(span),
+                            &time,
+                            "12 s",
+                            "a schedule time",
+                        );
                         let value = r.quantity(
                             &entry.value,
-                            span,
+                            At::Within(span),
                             &input.unit.dimension,
                             &input.unit.text,
                             &what,
@@ -409,7 +446,7 @@ fn resolve_truth(r: &mut Resolver<'_>, scenario: &Scenario) -> Vec<Option<f64>> 
         let value = scenario.truth.get(&state.name).and_then(|written| {
             r.quantity(
                 written.get_ref(),
-                span_of(written),
+                At::Value(span_of(written)),
                 &state.unit.dimension,
                 &state.unit.text,
                 &format!("the initial truth of `{}`", state.name),
@@ -438,19 +475,27 @@ fn resolve_sensors(
         let sensor = &model.sensors[index];
         let rate = r.quantity(
             plan.rate.get_ref(),
-            span_of(&plan.rate),
+            At::Value(span_of(&plan.rate)),
             &hertz,
             "20 Hz",
             &format!("the rate of `{name}`"),
         );
         let args_span = plan.args.as_ref().map_or(span_of(&plan.name), span_of);
-        let tables = plan.args.as_ref().map_or(&[][..], |args| args.get_ref().as_slice());
+        let tables = plan
+            .args
+            .as_ref()
+            .map_or(&[][..], |args| args.get_ref().as_slice());
         let mut arg_sets = Vec::new();
         for table in tables {
             for key in table.keys() {
                 if !sensor.args.iter().any(|a| &a.name == key) {
                     let known = sensor.args.iter().map(|a| a.name.clone()).collect();
-                    r.unknown(args_span, &format!("argument of `{name}` named"), key, known);
+                    r.unknown(
+                        args_span,
+                        &format!("argument of `{name}` named"),
+                        key,
+                        known,
+                    );
                 }
             }
             let set: Vec<Option<f64>> = sensor
@@ -459,7 +504,7 @@ fn resolve_sensors(
                 .map(|arg| match table.get(&arg.name) {
                     Some(text) => r.quantity(
                         text,
-                        args_span,
+                        At::Within(args_span),
                         &arg.unit.dimension,
                         &arg.unit.text,
                         &format!("argument `{}` of `{name}`", arg.name),

@@ -124,7 +124,10 @@ fn unscented_filter_on_a_nonlinear_spec_with_cycled_beacons() {
     assert_eq!(report.rejected, 0, "{}", report.summary_text());
     assert_eq!(report.sample.truth[0].len(), 5);
     // Every step's heading error is wrapped onto the circle.
-    assert!(report.rms_per_step.iter().all(|e| e[2] <= std::f64::consts::PI));
+    assert!(report
+        .rms_per_step
+        .iter()
+        .all(|e| e[2] <= std::f64::consts::PI));
     assert!(report.nees.inside >= 0.8, "{}", report.summary_text());
 }
 
@@ -154,18 +157,27 @@ fn scenario_mistakes_are_diagnosed_in_the_project_file() {
         .expect("rate with a length unit");
     let span = rate.primary_span();
     assert_eq!(&text[span.start..span.end], "\"20 m\"");
-
-    let missing = scenario_errors(&rail_cart(2, 1, 1.0).replace("inputs = {", "unused = {"));
-    assert!(missing.is_empty(), "unknown keys are a parse error, not reached here");
 }
 
 #[test]
 fn a_missing_input_and_a_bad_unit_are_reported() {
-    let text = rail_cart(2, 1, 1.0).replace("\"0.3 m/s^2\"", "\"0.3 m/furlong\"");
+    let text = rail_cart(2, 1, 1.0).replace("rate = \"10 Hz\"", "rate = \"10 furlong\"");
     let errors = scenario_errors(&text);
-    let unit = errors.iter().find(|e| e.code == codes::UNKNOWN_UNIT).expect("unknown unit");
+    let unit = errors
+        .iter()
+        .find(|e| e.code == codes::UNKNOWN_UNIT)
+        .expect("unknown unit");
     let span = unit.primary_span();
     assert_eq!(&text[span.start..span.end], "furlong");
+    // Inside a schedule the error points at the whole schedule.
+    let text = rail_cart(2, 1, 1.0).replace("\"0.3 m/s^2\"", "\"0.3 m/furlong\"");
+    let errors = scenario_errors(&text);
+    let unit = errors
+        .iter()
+        .find(|e| e.code == codes::UNKNOWN_UNIT)
+        .expect("unknown unit");
+    let span = unit.primary_span();
+    assert!(text[span.start..span.end].starts_with("[{ from = \"0 s\""));
 
     let no_inputs: String = rail_cart(2, 1, 1.0)
         .lines()
@@ -173,8 +185,10 @@ fn a_missing_input_and_a_bad_unit_are_reported() {
         .collect::<Vec<_>>()
         .join("\n");
     let errors = scenario_errors(&no_inputs);
-    assert!(errors.iter().any(|e| e.code == codes::SCENARIO_MISSING_VALUE
-        && e.hint.as_deref().is_some_and(|h| h.contains("accel"))));
+    assert!(errors
+        .iter()
+        .any(|e| e.code == codes::SCENARIO_MISSING_VALUE
+            && e.hint.as_deref().is_some_and(|h| h.contains("accel"))));
 }
 
 #[test]
@@ -185,12 +199,16 @@ fn methods_the_spec_does_not_allow_are_refused_with_the_spec() {
     );
     match run_scenario(&repository(), &scenario(&text), &quiet) {
         Err(SimError::Spec { diagnostics, .. }) => {
-            assert!(diagnostics.iter().any(|d| d.code == codes::KF_NEEDS_LINEAR_MODEL));
+            assert!(diagnostics
+                .iter()
+                .any(|d| d.code == codes::KF_NEEDS_LINEAR_MODEL));
         }
         other => panic!("expected a refusal, got {other:?}"),
     }
     let grid = rail_cart(2, 1, 1.0).replace("method = \"kf\"", "method = \"grid\"");
-    assert!(scenario_errors(&grid).iter().any(|e| e.code == codes::SCENARIO_METHOD));
+    assert!(scenario_errors(&grid)
+        .iter()
+        .any(|e| e.code == codes::SCENARIO_METHOD));
 }
 
 /// Element-level check of the SVG output: it parses as XML, and the state figure has
@@ -206,7 +224,14 @@ fn outputs_are_well_formed_with_one_panel_per_state() {
         .collect();
     assert_eq!(
         names,
-        ["states.svg", "nees.svg", "nis.svg", "steps.csv", "readings.csv", "summary.txt"]
+        [
+            "states.svg",
+            "nees.svg",
+            "nis.svg",
+            "steps.csv",
+            "readings.csv",
+            "summary.txt"
+        ]
     );
     for svg in ["states.svg", "nees.svg", "nis.svg"] {
         let text = std::fs::read_to_string(dir.join(svg)).expect("svg");
@@ -218,12 +243,14 @@ fn outputs_are_well_formed_with_one_panel_per_state() {
         .descendants()
         .filter(|n| n.has_tag_name("text"))
         .filter_map(|n| n.text())
+        .map(str::trim)
         .filter(|t| t.contains('[') && !t.starts_with("time"))
         .collect();
     assert_eq!(captions, ["position [m]", "speed [m/s]"]);
     let csv = std::fs::read_to_string(dir.join("steps.csv")).expect("csv");
     assert_eq!(csv.lines().count(), 1 + report.times.len());
-    assert!(csv.starts_with("time_s,nees_mean,nees_lower,nees_upper,rms_position_m,rms_speed_m_per_s\n"));
+    assert!(csv
+        .starts_with("time_s,nees_mean,nees_lower,nees_upper,rms_position_m,rms_speed_m_per_s\n"));
     std::fs::remove_dir_all(&dir).expect("cleanup");
 }
 
@@ -239,4 +266,32 @@ fn progress_is_reported_once_per_run() {
     let mut calls = calls.into_inner().expect("lock");
     calls.sort_unstable();
     assert_eq!(calls, (1..=5).map(|d| (d, 5)).collect::<Vec<_>>());
+}
+
+/// Every scenario of the demo project file runs. By default with 4 runs each; with
+/// `RECKON_FULL_DEMOS=1` with the runs the file asks for, printing each summary and
+/// its wall-clock time (for the report, not an assertion).
+#[test]
+fn demo_project_scenarios_run() {
+    let text = std::fs::read_to_string(repository().join("reckon.toml")).expect("demo project");
+    let project = parse_project(&text).expect("valid demo project");
+    let full = std::env::var_os("RECKON_FULL_DEMOS").is_some();
+    assert!(project.scenarios.len() >= 5);
+    for mut scenario in project.scenarios {
+        if !full {
+            scenario.runs = 4;
+        }
+        let started = std::time::Instant::now();
+        let report = run_scenario(&repository(), &scenario, &quiet)
+            .unwrap_or_else(|e| panic!("{}: {e:?}", scenario.name));
+        if full {
+            eprintln!(
+                "{}({:.2} s)\n",
+                report.summary_text(),
+                started.elapsed().as_secs_f64()
+            );
+        }
+        assert_eq!(report.rejected, 0, "{}", report.summary_text());
+        assert_eq!(report.nees.mean.len(), report.times.len());
+    }
 }

@@ -216,7 +216,7 @@ fn direction(model: &Model, vector: &DVector<f64>) -> Direction {
     }
 }
 
-fn ops_named<'a>(lowered: &'a Lowered, names: &[String]) -> Vec<FunctionOps> {
+fn ops_named(lowered: &Lowered, names: &[String]) -> Vec<FunctionOps> {
     names
         .iter()
         .filter_map(|name| lowered.analysis.ops.iter().find(|f| &f.name == name))

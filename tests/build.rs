@@ -16,11 +16,24 @@ const KF_F64: Variant = ("_kf_f64", Method::Kf, Scalar::F64);
 
 /// Every spec with the variants built from it. `tests/lib.rs` includes each output.
 const SPECS: &[(&str, &[Variant])] = &[
-    ("../specs/canal_ferry.reckon", &[EKF_F64, EKF_F32, UKF_F64, KF_F64]),
-    ("../specs/goods_lift.reckon", &[EKF_F64, EKF_F32, UKF_F64, KF_F64]),
+    (
+        "../specs/canal_ferry.reckon",
+        &[EKF_F64, EKF_F32, UKF_F64, KF_F64],
+    ),
+    (
+        "../specs/goods_lift.reckon",
+        &[EKF_F64, EKF_F32, UKF_F64, KF_F64],
+    ),
     ("../specs/pallet_robot.reckon", &[EKF_F64, EKF_F32, UKF_F64]),
-    ("../specs/rail_cart.reckon", &[EKF_F64, EKF_F32, UKF_F64, KF_F64]),
-    ("../specs/survey_launch.reckon", &[EKF_F64, EKF_F32, UKF_F64]),
+    (
+        "../specs/rail_cart.reckon",
+        &[EKF_F64, EKF_F32, UKF_F64, KF_F64],
+    ),
+    (
+        "../specs/survey_launch.reckon",
+        &[EKF_F64, EKF_F32, UKF_F64],
+    ),
+    ("specs/every_function.reckon", &[EKF_F64, EKF_F32, UKF_F64]),
     ("specs/units_declared.reckon", &[EKF_F64, UKF_F64]),
     ("specs/units_si.reckon", &[EKF_F64, UKF_F64]),
 ];
@@ -35,7 +48,8 @@ fn main() {
     if let Ok(entries) = std::fs::read_dir("../specs") {
         for entry in entries.flatten() {
             let path = format!("../specs/{}", entry.file_name().to_string_lossy());
-            let listed = SPECS.iter().any(|(spec, _)| *spec == path) || NOT_KALMAN.contains(&path.as_str());
+            let listed =
+                SPECS.iter().any(|(spec, _)| *spec == path) || NOT_KALMAN.contains(&path.as_str());
             assert!(
                 !path.ends_with(".reckon") || listed,
                 "demo spec {path} is not listed in tests/build.rs"

@@ -1,11 +1,10 @@
 //! The build-script API: generating estimator modules from a crate's `build.rs`.
 //!
 //! ```no_run
-//! // build.rs of a firmware crate
-//! fn main() {
-//!     reckon::build::compile_spec("specs/rail_cart.reckon").unwrap();
-//! }
-//! // src/main.rs: mod rail_cart { include!(concat!(env!("OUT_DIR"), "/rail_cart.rs")); }
+//! // In the `main` of a firmware crate's build.rs:
+//! reckon::build::compile_spec("specs/rail_cart.reckon").unwrap();
+//! // and in its src/main.rs:
+//! // mod rail_cart { include!(concat!(env!("OUT_DIR"), "/rail_cart.rs")); }
 //! ```
 //!
 //! [`compile_spec`] is the one-call shortcut; [`Builder`] sets options, the output
@@ -19,10 +18,12 @@ use std::fmt;
 use std::io;
 use std::path::{Path, PathBuf};
 
-use crate::back::output;
-use crate::back::rust;
+use crate::back::output::{self, WriteOutcome};
+use crate::back::rust::{self, GenerationReport};
 use crate::diag::{self, Diagnostic};
-pub use crate::options::{EstimatorOptions, Integrator, Method, Scalar, UnscentedParams, UpdateForm};
+pub use crate::options::{
+    EstimatorOptions, Integrator, Method, Scalar, UnscentedParams, UpdateForm,
+};
 use crate::project;
 
 /// Generates the module for one spec into `$OUT_DIR/<model>.rs` with default options
@@ -54,6 +55,11 @@ pub enum BuildError {
     NoOutDir,
     /// Nothing was asked for.
     NothingToBuild,
+    /// Check mode: the file differs from what the spec generates now.
+    OutOfDate {
+        /// The stale file.
+        path: PathBuf,
+    },
 }
 
 impl fmt::Display for BuildError {
@@ -72,6 +78,11 @@ impl fmt::Display for BuildError {
                 "no output folder: OUT_DIR is not set (call from a build script, or set Builder::out_dir)",
             ),
             BuildError::NothingToBuild => f.write_str("no spec to build"),
+            BuildError::OutOfDate { path } => write!(
+                f,
+                "{} is out of date: regenerate it from its spec",
+                path.display()
+            ),
         }
     }
 }
@@ -101,7 +112,24 @@ pub struct Builder {
     out_dir: Option<PathBuf>,
     suffix: String,
     cargo_metadata: bool,
+    verify_only: bool,
+    project: Option<PathBuf>,
     jobs: Vec<Job>,
+}
+
+/// One generated module.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Built {
+    /// Where it was written (or, when verifying, where it was compared).
+    pub path: PathBuf,
+    /// Whether the file changed.
+    pub outcome: WriteOutcome,
+    /// Facts about the generated code.
+    pub report: GenerationReport,
+    /// Warnings about the spec under the chosen method.
+    pub warnings: Vec<Diagnostic>,
+    /// The spec's text, for rendering the warnings.
+    pub spec_text: String,
 }
 
 impl Builder {
@@ -120,13 +148,12 @@ impl Builder {
     pub fn from_project(path: impl AsRef<Path>) -> Result<Builder, BuildError> {
         let path = path.as_ref();
         let text = read(path)?;
-        let parsed = project::parse_project(&text).map_err(|diagnostic| {
-            BuildError::Diagnostics {
+        let parsed =
+            project::parse_project(&text).map_err(|diagnostic| BuildError::Diagnostics {
                 path: path.to_path_buf(),
                 text: text.clone(),
                 diagnostics: vec![diagnostic],
-            }
-        })?;
+            })?;
         let folder = path.parent().unwrap_or(Path::new(""));
         let jobs = parsed
             .estimators
@@ -139,9 +166,7 @@ impl Builder {
             .collect();
         let mut builder = Builder::new();
         builder.jobs = jobs;
-        if builder.cargo_metadata {
-            println!("cargo:rerun-if-changed={}", path.display());
-        }
+        builder.project = Some(path.to_path_buf());
         Ok(builder)
     }
 
@@ -201,9 +226,28 @@ impl Builder {
         self
     }
 
+    /// Compare instead of writing: a file that would change is a
+    /// [`BuildError::OutOfDate`] (check mode for CI; nothing is written).
+    pub fn verify_only(mut self, enabled: bool) -> Builder {
+        self.verify_only = enabled;
+        self
+    }
+
     /// Generates the project's modules and one module per spec in `specs`; returns the
     /// paths written (or left unchanged), in order. Stops at the first failing spec.
-    pub fn compile(mut self, specs: &[impl AsRef<Path>]) -> Result<Vec<PathBuf>, BuildError> {
+    pub fn compile(self, specs: &[impl AsRef<Path>]) -> Result<Vec<PathBuf>, BuildError> {
+        Ok(self
+            .build(specs)?
+            .into_iter()
+            .map(|built| built.path)
+            .collect())
+    }
+
+    /// As [`Builder::compile`], with each module's report and warnings.
+    pub fn build(mut self, specs: &[impl AsRef<Path>]) -> Result<Vec<Built>, BuildError> {
+        if let (true, Some(project)) = (self.cargo_metadata, &self.project) {
+            println!("cargo:rerun-if-changed={}", project.display());
+        }
         let options = self.options;
         self.jobs.extend(specs.iter().map(|spec| Job {
             spec: spec.as_ref().to_path_buf(),
@@ -216,7 +260,7 @@ impl Builder {
         self.jobs.iter().map(|job| self.run(job)).collect()
     }
 
-    fn run(&self, job: &Job) -> Result<PathBuf, BuildError> {
+    fn run(&self, job: &Job) -> Result<Built, BuildError> {
         if self.cargo_metadata {
             println!("cargo:rerun-if-changed={}", job.spec.display());
         }
@@ -247,12 +291,24 @@ impl Builder {
                 folder.join(format!("{}{}.rs", generated.report.model, self.suffix))
             }
         };
-        output::write_if_changed(&path, &generated.code)
-            .map_err(|error| BuildError::Io {
+        let outcome = if self.verify_only {
+            if !output::is_up_to_date(&path, &generated.code) {
+                return Err(BuildError::OutOfDate { path });
+            }
+            WriteOutcome::Unchanged
+        } else {
+            output::write_if_changed(&path, &generated.code).map_err(|error| BuildError::Io {
                 path: path.clone(),
                 error,
-            })?;
-        Ok(path)
+            })?
+        };
+        Ok(Built {
+            path,
+            outcome,
+            report: generated.report,
+            warnings: generated.warnings,
+            spec_text: text,
+        })
     }
 }
 
@@ -261,4 +317,103 @@ fn read(path: &Path) -> Result<String, BuildError> {
         path: path.to_path_buf(),
         error,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A fresh folder under the system temporary folder.
+    fn scratch(name: &str) -> PathBuf {
+        let dir = std::env::temp_dir().join(format!("reckon-build-{name}-{}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        dir
+    }
+
+    const SPEC: &str = "model probe\nstate { x : m }\nmotion continuous { x' = 0 m/s }\nprocess { x ~ white(0.1 m/sqrt(s)) }\nsensor ruler { reading : ft = x\n noise ~ normal(0.1 ft) }\ninitial { x ~ normal(0 m, 1 m) }\n";
+
+    #[test]
+    fn builds_once_then_leaves_the_file_alone() {
+        let dir = scratch("once");
+        let spec = dir.join("probe.reckon");
+        assert!(write_if_changed_ok(&spec, SPEC));
+        let builder = || {
+            Builder::new()
+                .cargo_metadata(false)
+                .out_dir(&dir)
+                .suffix("_f32")
+                .scalar(Scalar::F32)
+        };
+        let first = builder().build(&[&spec]).unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(first[0].path, dir.join("probe_f32.rs"));
+        assert_eq!(first[0].outcome, WriteOutcome::Written);
+        assert!(first[0].report.summary().contains("f32"));
+        let second = builder().build(&[&spec]).unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(second[0].outcome, WriteOutcome::Unchanged);
+        // Check mode: up to date now, out of date after the spec changes.
+        assert!(builder().verify_only(true).build(&[&spec]).is_ok());
+        assert!(write_if_changed_ok(
+            &spec,
+            &SPEC.replace("0.1 ft", "0.2 ft")
+        ));
+        let stale = builder().verify_only(true).build(&[&spec]);
+        assert!(matches!(stale, Err(BuildError::OutOfDate { .. })));
+        let _ = std::fs::remove_dir_all(dir);
+    }
+
+    fn write_if_changed_ok(path: &Path, text: &str) -> bool {
+        output::write_if_changed(path, text).is_ok()
+    }
+
+    #[test]
+    fn errors_render_with_file_line_and_column_in_display_and_debug() {
+        let dir = scratch("errors");
+        let spec = dir.join("broken.reckon");
+        let text = SPEC.replace("0.1 ft", "0.1 s");
+        assert!(write_if_changed_ok(&spec, &text));
+        let error = Builder::new()
+            .cargo_metadata(false)
+            .out_dir(&dir)
+            .compile(&[&spec])
+            .err()
+            .unwrap_or_else(|| panic!("a reading noise in seconds was accepted"));
+        let shown = format!("{error}");
+        let location = format!("{}:6:17", spec.display());
+        assert!(shown.contains(&location), "{shown}");
+        assert!(shown.contains("error["), "{shown}");
+        assert!(format!("{error:?}").contains(&shown));
+        let _ = std::fs::remove_dir_all(dir);
+    }
+
+    #[test]
+    fn a_refused_method_is_a_build_error() {
+        let dir = scratch("refused");
+        let spec = dir.join("probe.reckon");
+        assert!(write_if_changed_ok(&spec, SPEC));
+        let error = Builder::new()
+            .cargo_metadata(false)
+            .out_dir(&dir)
+            .method(Method::Particle)
+            .compile(&[&spec]);
+        assert!(format!("{:?}", error.err()).contains("E0603"));
+        let _ = std::fs::remove_dir_all(dir);
+    }
+
+    #[test]
+    fn a_project_file_builds_each_estimator_to_its_output() {
+        let dir = scratch("project");
+        assert!(write_if_changed_ok(&dir.join("specs/probe.reckon"), SPEC));
+        let project = "[[estimator]]\nspec = \"specs/probe.reckon\"\noutput = \"src/probe_ukf.rs\"\nmethod = \"ukf\"\n\n[[estimator]]\nspec = \"specs/probe.reckon\"\noutput = \"src/probe_kf.rs\"\nmethod = \"kf\"\nscalar = \"f32\"\n";
+        assert!(write_if_changed_ok(&dir.join("reckon.toml"), project));
+        let built = Builder::from_project(dir.join("reckon.toml"))
+            .and_then(|b| b.cargo_metadata(false).build(&[] as &[&str]))
+            .unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(built.len(), 2);
+        assert_eq!(built[0].path, dir.join("src/probe_ukf.rs"));
+        assert_eq!(built[1].report.method, Method::Kf);
+        assert_eq!(built[1].report.scalar, Scalar::F32);
+        let bad = Builder::from_project(dir.join("missing.toml"));
+        assert!(matches!(bad, Err(BuildError::Io { .. })));
+        let _ = std::fs::remove_dir_all(dir);
+    }
 }

@@ -63,11 +63,13 @@
 
 pub mod angle;
 pub mod expm;
+pub mod grid;
 pub mod health;
 pub mod kalman;
 pub mod linalg;
 pub mod model;
 pub mod outcome;
+pub mod particle;
 pub mod unscented;
 
 /// The linear-algebra crate the filters are written in, re-exported so generated modules

@@ -1,2 +1,4 @@
 //! End-to-end and external-reference tests.
+mod generated;
+mod ir_reference;
 mod runtime_reference;

@@ -65,7 +65,8 @@ impl<'a> InterpretedMotion<'a> {
     /// (left unbound, so NaN, when the exponential fails: the filter then rejects
     /// the step as non-finite).
     pub fn bindings<T: Scalar>(&self, x: &DVector<T>, u: &DVector<T>, dt: T) -> Bindings<T> {
-        let mut bindings = Bindings::new(x.iter().copied().collect(), u.iter().copied().collect(), dt);
+        let mut bindings =
+            Bindings::new(x.iter().copied().collect(), u.iter().copied().collect(), dt);
         if self.runtime.is_empty() {
             return bindings;
         }
@@ -99,7 +100,13 @@ impl<T: Scalar> MotionModel<T, Dyn, Dyn> for InterpretedMotion<'_> {
         x_next.copy_from_slice(&values);
     }
 
-    fn transition_jacobian(&self, x: &DVector<T>, u: &DVector<T>, dt: T, jacobian: &mut DMatrix<T>) {
+    fn transition_jacobian(
+        &self,
+        x: &DVector<T>,
+        u: &DVector<T>,
+        dt: T,
+        jacobian: &mut DMatrix<T>,
+    ) {
         write_matrix(&self.jacobian.eval(&self.bindings(x, u, dt)), jacobian);
     }
 
@@ -121,7 +128,11 @@ pub struct InterpretedSensor<'a> {
 impl<'a> InterpretedSensor<'a> {
     /// Sensor `index` of `lowered`, corrected with `update` (sequential updates apply
     /// only to diagonal reading noise; the runtime falls back to Joseph otherwise).
-    pub fn new(lowered: &'a Lowered, index: usize, update: UpdateForm) -> Option<InterpretedSensor<'a>> {
+    pub fn new(
+        lowered: &'a Lowered,
+        index: usize,
+        update: UpdateForm,
+    ) -> Option<InterpretedSensor<'a>> {
         let sensor = lowered.sensors.get(index)?;
         Some(InterpretedSensor {
             lowered,

@@ -10,7 +10,7 @@ use super::{Checker, Global, Reported};
 use crate::diag::{codes, Diagnostic, Span};
 use crate::model::{BinOp, Expr, ExprKind, Func};
 use crate::syntax::ast;
-use crate::units::{Base, Dimension, Rational};
+use crate::units::{Base, Dimension, Rational, Scale, Unit};
 
 /// Where an expression appears, which decides the names it may use.
 #[derive(Clone, Copy)]
@@ -45,6 +45,32 @@ fn number(value: f64, dimension: Dimension, span: Span) -> Expr {
         kind: ExprKind::Number(value),
         dimension,
         span,
+    }
+}
+
+/// A literal in units of `unit`, converted to SI with a single rounding where the
+/// factor allows it: a power of ten shifts the decimal exponent of the text (so
+/// `99.9 %` is the double nearest 0.999 and `1.5 mm` the one nearest 0.0015), and a
+/// factor 1/n for a whole n divides by n. Other factors multiply.
+fn in_si(quantity: &ast::Quantity, unit: &Unit) -> f64 {
+    let factor = unit.to_si();
+    let power = factor.log10().round();
+    if power.abs() < 400.0 && Scale::power_of_ten(power as i64) == Some(unit.scale) {
+        let text = quantity.text.replace('_', "");
+        let (mantissa, exponent) = match text.find(['e', 'E']) {
+            Some(at) => (&text[..at], text[at + 1..].parse::<i64>().ok()),
+            None => (text.as_str(), Some(0)),
+        };
+        if let Some(exponent) = exponent {
+            if let Ok(value) = format!("{mantissa}e{}", exponent + power as i64).parse::<f64>() {
+                return value;
+            }
+        }
+    }
+    let inverse = unit.scale.recip().map(|s| s.to_f64());
+    match inverse {
+        Some(n) if n > 1.0 && n.fract() == 0.0 && n < 9.0e15 => quantity.value / n,
+        _ => quantity.value * factor,
     }
 }
 
@@ -109,7 +135,7 @@ impl Checker {
                     None => (q.value, Dimension::NONE),
                     Some(unit) => {
                         let unit = self.unit(unit)?;
-                        (q.value * unit.to_si(), unit.dimension)
+                        (in_si(q, &unit), unit.dimension)
                     }
                 };
                 self.finite(number(value, dimension, span))
@@ -189,7 +215,7 @@ impl Checker {
             }
             (_, Some(Global::State(i))) => match place {
                 Place::Constant => Err(not_constant(self, "a state")),
-                _ => match self.states[i].dimension {
+                _ => match self.states[i].dimension() {
                     Some(dimension) => Ok(Expr {
                         kind: ExprKind::State(i),
                         dimension,
@@ -206,7 +232,7 @@ impl Checker {
                         .with_label_message("an input")
                         .with_hint("a reading depends on the state, constants and the sensor's arguments; declare a value known when the reading arrives as an argument: `sensor name(value: unit)`"),
                 )),
-                _ => match self.inputs[i].dimension {
+                _ => match self.inputs[i].dimension() {
                     Some(dimension) => Ok(Expr {
                         kind: ExprKind::Input(i),
                         dimension,

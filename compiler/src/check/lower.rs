@@ -129,13 +129,8 @@ impl Checker {
         parts
     }
 
-    /// Declares a global name, refusing reserved and duplicate names.
-    fn declare(
-        &mut self,
-        ident: &ast::Ident,
-        global: Global,
-        first_spans: &mut HashMap<String, Span>,
-    ) -> bool {
+    /// Refuses a declaration of a built-in name.
+    fn not_reserved(&mut self, ident: &ast::Ident) -> bool {
         if is_reserved(&ident.name) {
             self.report(
                 Diagnostic::new(
@@ -147,21 +142,29 @@ impl Checker {
             );
             return false;
         }
-        if let Some(first) = first_spans.get(&ident.name) {
+        true
+    }
+
+    /// Declares a global name, refusing reserved and duplicate names.
+    fn declare(&mut self, ident: &ast::Ident, global: Global) {
+        if !self.not_reserved(ident) {
+            return;
+        }
+        if let Some(first) = self.declared_at.get(&ident.name) {
+            let first = *first;
             self.report(
                 Diagnostic::new(
                     codes::DUPLICATE_NAME,
                     ident.span,
                     format!("`{}` is declared twice", ident.name),
                 )
-                .with_secondary(*first, "first declared here")
+                .with_secondary(first, "first declared here")
                 .with_hint("states, inputs and constants share one namespace; rename one of them"),
             );
-            return false;
+            return;
         }
-        first_spans.insert(ident.name.clone(), ident.span);
+        self.declared_at.insert(ident.name.clone(), ident.span);
         self.globals.insert(ident.name.clone(), global);
-        true
     }
 
     fn lower(&mut self, parts: &Parts<'_>) -> Option<Model> {
@@ -179,7 +182,6 @@ impl Checker {
         let anchor = model_decl.map_or(Span::new(0, 0), |m| m.name.span);
 
         // Declarations first, so every later expression sees every name.
-        let mut first_spans = HashMap::new();
         let state_decls: Vec<&ast::StateVarDecl> = parts
             .state
             .map(|b| b.vars.iter().collect())
@@ -209,24 +211,20 @@ impl Checker {
         }
         let mut state_units = Vec::new();
         for (i, decl) in state_decls.iter().enumerate() {
-            self.declare(&decl.name, Global::State(i), &mut first_spans);
+            self.declare(&decl.name, Global::State(i));
             let unit = self.declared_unit(&decl.unit).ok();
-            self.states.push(VarInfo {
-                dimension: unit.as_ref().map(|u| u.dimension),
-            });
+            self.states.push(VarInfo { unit: unit.clone() });
             state_units.push(unit);
         }
         let mut input_units = Vec::new();
         for (i, decl) in input_decls.iter().enumerate() {
-            self.declare(&decl.name, Global::Input(i), &mut first_spans);
+            self.declare(&decl.name, Global::Input(i));
             let unit = self.declared_unit(&decl.unit).ok();
-            self.inputs.push(VarInfo {
-                dimension: unit.as_ref().map(|u| u.dimension),
-            });
+            self.inputs.push(VarInfo { unit: unit.clone() });
             input_units.push(unit);
         }
         for (i, decl) in parts.constants.iter().enumerate() {
-            self.declare(&decl.name, Global::Const(i), &mut first_spans);
+            self.declare(&decl.name, Global::Const(i));
             self.constants.push(ConstInfo {
                 value: None,
                 span: decl.name.span,
@@ -420,7 +418,7 @@ impl Checker {
                     dist,
                     &Subject {
                         what: &what,
-                        dimension: unit.dimension,
+                        unit: &unit,
                         white: WhiteRule::NotProcess,
                     },
                 )
@@ -550,7 +548,7 @@ impl Checker {
                 failed = true;
                 continue;
             };
-            let Some(state_dim) = self.states[state].dimension else {
+            let Some(state_dim) = self.states[state].dimension() else {
                 failed = true;
                 continue;
             };
@@ -604,7 +602,7 @@ impl Checker {
             .into_iter()
             .enumerate()
             .map(|(i, eq)| {
-                let dimension = self.states[i].dimension?;
+                let dimension = self.states[i].dimension()?;
                 Some(eq.unwrap_or_else(|| match kind {
                     MotionKind::Continuous => model_expr(
                         ExprKind::Number(0.0),
@@ -639,13 +637,13 @@ impl Checker {
             ) {
                 continue;
             }
-            let Some(dimension) = self.states[state].dimension else {
+            let Some(unit) = self.states[state].unit.clone() else {
                 continue;
             };
             let what = format!("state `{}`", stmt.target.name);
             let subject = Subject {
                 what: &what,
-                dimension,
+                unit: &unit,
                 white,
             };
             if let Ok(noise) = self.noise(&stmt.dist, &subject) {
@@ -686,13 +684,13 @@ impl Checker {
             ) {
                 continue;
             }
-            let Some(dimension) = self.states[state].dimension else {
+            let Some(unit) = self.states[state].unit.clone() else {
                 continue;
             };
             let what = format!("the initial belief of `{}`", stmt.target.name);
             let subject = Subject {
                 what: &what,
-                dimension,
+                unit: &unit,
                 white: WhiteRule::NotProcess,
             };
             if let Ok(Noise::Dist(d)) = self.noise(&stmt.dist, &subject) {
@@ -724,41 +722,31 @@ impl Checker {
         // Arguments and components share the sensor's namespace.
         let mut local: HashMap<String, Span> = HashMap::new();
         let mut local_name = |checker: &mut Checker, ident: &ast::Ident| -> bool {
-            if is_reserved(&ident.name) {
-                checker.report(
-                    Diagnostic::new(
-                        codes::RESERVED_NAME,
-                        ident.span,
-                        format!("`{}` is a built-in name and cannot be declared", ident.name),
-                    )
-                    .with_hint("choose another name"),
-                );
+            if !checker.not_reserved(ident) {
                 return false;
             }
-            let clash = local.get(&ident.name).copied().or_else(|| {
-                match checker.globals.get(&ident.name) {
-                    Some(Global::State(_) | Global::Input(_) | Global::Const(_)) => {
-                        Some(Span::new(0, 0))
-                    }
-                    None => None,
+            let (first, hint) = match (local.get(&ident.name), checker.declared_at.get(&ident.name)) {
+                (Some(first), _) => (*first, None),
+                (None, Some(first)) => (
+                    *first,
+                    Some("a sensor's arguments and components must not reuse the name of a state, input or constant"),
+                ),
+                (None, None) => {
+                    local.insert(ident.name.clone(), ident.span);
+                    return true;
                 }
-            });
-            if let Some(first) = clash {
-                let mut d = Diagnostic::new(
-                    codes::DUPLICATE_NAME,
-                    ident.span,
-                    format!("`{}` is already declared", ident.name),
-                );
-                d = if first == Span::new(0, 0) {
-                    d.with_hint("a sensor's arguments and components must not reuse the name of a state, input or constant")
-                } else {
-                    d.with_secondary(first, "first declared here")
-                };
-                checker.report(d);
-                return false;
+            };
+            let mut d = Diagnostic::new(
+                codes::DUPLICATE_NAME,
+                ident.span,
+                format!("`{}` is already declared", ident.name),
+            )
+            .with_secondary(first, "first declared here");
+            if let Some(hint) = hint {
+                d = d.with_hint(hint);
             }
-            local.insert(ident.name.clone(), ident.span);
-            true
+            checker.report(d);
+            false
         };
 
         let mut args = Vec::new();
@@ -848,9 +836,9 @@ impl Checker {
 
         let gate = self.gate(block);
         let complete = !failed && components.len() == declared;
-        let comps: Vec<(&ast::ComponentDecl, Dimension)> = components
+        let comps: Vec<(&ast::ComponentDecl, DeclaredUnit)> = components
             .iter()
-            .map(|(c, d)| (*d, c.unit.dimension))
+            .map(|(c, d)| (*d, c.unit.clone()))
             .collect();
         let noise = self.sensor_noise(block, &comps, complete);
         Some(Sensor {
@@ -923,7 +911,7 @@ impl Checker {
     fn sensor_noise(
         &mut self,
         block: &ast::SensorBlock,
-        components: &[(&ast::ComponentDecl, Dimension)],
+        components: &[(&ast::ComponentDecl, DeclaredUnit)],
         complete: bool,
     ) -> Option<SensorNoise> {
         let mut shared: Option<&ast::SharedNoise> = None;
@@ -1019,7 +1007,7 @@ impl Checker {
         {
             let comps: Vec<(String, Dimension)> = components
                 .iter()
-                .map(|(c, d)| (c.name.name.clone(), *d))
+                .map(|(c, u)| (c.name.name.clone(), u.dimension))
                 .collect();
             return self
                 .covariance(cov, &comps)
@@ -1027,7 +1015,7 @@ impl Checker {
                 .map(SensorNoise::Covariance);
         }
         let mut dists = Vec::new();
-        for (decl, dimension) in components {
+        for (decl, unit) in components {
             let name = decl.name.name.as_str();
             let dist = match (own.get(name), shared) {
                 (Some(stmt), _) => &stmt.dist,
@@ -1058,7 +1046,7 @@ impl Checker {
             let what = format!("reading `{name}`");
             let subject = Subject {
                 what: &what,
-                dimension: *dimension,
+                unit,
                 white: WhiteRule::NotProcess,
             };
             match self.noise(dist, &subject) {

@@ -5,9 +5,9 @@
 use super::expr::seconds;
 use super::{Checker, Reported};
 use crate::diag::{codes, Diagnostic, Span};
-use crate::model::Distribution;
+use crate::model::{DeclaredUnit, Distribution};
 use crate::syntax::ast::{CovarianceExpr, DistArg, DistExpr};
-use crate::units::{Dimension, Rational};
+use crate::units::{Base, Dimension, Rational};
 
 /// The forms accepted, for messages.
 const FORMS: &str = "normal(sigma), normal(mean, sigma), triangle(half_width), triangle(mean, half_width), uniform(half_width), uniform(lo .. hi), white(amplitude)";
@@ -28,8 +28,8 @@ pub(super) enum Noise {
 pub(super) struct Subject<'a> {
     /// E.g. "state `speed`".
     pub what: &'a str,
-    /// Dimension of the described quantity.
-    pub dimension: Dimension,
+    /// Declared unit of the described quantity (its dimension, and its unit for hints).
+    pub unit: &'a DeclaredUnit,
     /// Whether `white(...)` is allowed, and if not, why not.
     pub white: WhiteRule,
 }
@@ -45,8 +45,71 @@ pub(super) enum WhiteRule {
     NotProcess,
 }
 
+/// A dimension as messages show it. `sqrt(Hz)` in a datasheet density carries half
+/// a cycle that means nothing to the reader; fractional cycle exponents are left out.
+fn shown(dimension: Dimension) -> String {
+    let cycles = dimension.exponent(Base::Cycle);
+    let without = Dimension::base(Base::Cycle)
+        .pow(cycles)
+        .and_then(|c| dimension.div(&c));
+    match without {
+        Some(plain) if !cycles.is_integer() => plain.to_string(),
+        _ => dimension.to_string(),
+    }
+}
+
+/// The unit text of a rate of something in `unit`: `m/s` gives `m/s^2`.
+fn per_second(unit: &str) -> String {
+    match unit.strip_suffix("/s") {
+        Some(base) => format!("{base}/s^2"),
+        None => format!("{unit}/s"),
+    }
+}
+
+/// A value with four significant digits, written so it can be pasted into a spec.
 fn fmt_value(v: f64) -> String {
-    format!("{}", (v * 1e6).round() / 1e6)
+    if v == 0.0 || !v.is_finite() {
+        return format!("{v}");
+    }
+    let magnitude = v.abs().log10().floor() as i32;
+    if (-4..6).contains(&magnitude) {
+        let decimals = (3 - magnitude).max(0) as usize;
+        let text = format!("{v:.decimals$}");
+        if text.contains('.') {
+            text.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            text
+        }
+    } else {
+        format!("{v:.3e}")
+    }
+}
+
+impl Subject<'_> {
+    fn dimension(&self) -> Dimension {
+        self.unit.dimension
+    }
+
+    /// `value_si` (of the state's rate) in the declared unit per second.
+    fn per_second_in_declared(&self, value_si: f64) -> f64 {
+        value_si / self.unit.to_si
+    }
+
+    /// How a sigma of the rate, sampled at [`EXAMPLE_RATE_HZ`], reads as a density and
+    /// as per-step noise. A white sequence of standard deviation s at f Hz has a
+    /// two-sided PSD of s^2 / f, and over one step 1/f it moves the state by s / f
+    /// (common practice, no source).
+    fn rate_conversions(&self, rate_si: f64) -> String {
+        let unit = &self.unit.text;
+        let rate_unit = per_second(unit);
+        let sigma = self.per_second_in_declared(rate_si);
+        format!(
+            "if {} {rate_unit} is the sigma of the rate sampled at {EXAMPLE_RATE_HZ} Hz, it is the density `white({} {rate_unit}/sqrt(Hz))`, or per-step noise `normal({} {unit})` at that rate",
+            fmt_value(sigma),
+            fmt_value(sigma / EXAMPLE_RATE_HZ.sqrt()),
+            fmt_value(sigma / EXAMPLE_RATE_HZ)
+        )
+    }
 }
 
 impl Checker {
@@ -155,7 +218,7 @@ impl Checker {
         match arg {
             DistArg::Value(expr) => {
                 let (value, dimension) = self.constant(expr)?;
-                self.fits(dimension, expr.span, subject)?;
+                self.fits(value, dimension, expr.span, subject)?;
                 Ok(ArgValue::Value(value, expr.span))
             }
             DistArg::Range { lo, hi, span } => {
@@ -176,38 +239,50 @@ impl Checker {
     /// Checks a distribution parameter's dimension against the subject's.
     fn fits(
         &mut self,
+        value: f64,
         dimension: Dimension,
         span: Span,
         subject: &Subject<'_>,
     ) -> Result<(), Reported> {
-        if !dimension.compatible(&subject.dimension) {
+        if !dimension.compatible(&subject.dimension()) {
             let mut d = Diagnostic::new(
                 codes::NOISE_DIMENSION,
                 span,
                 format!(
-                    "this is {dimension}, but noise on {} must be {}",
-                    subject.what, subject.dimension
+                    "this is {}, but noise on {} must be {}",
+                    shown(dimension),
+                    subject.what,
+                    subject.dimension()
                 ),
             )
-            .with_label_message(format!("{dimension}"));
-            let rate = subject.dimension.div(&seconds());
-            if subject.white == WhiteRule::Allowed && rate.is_some_and(|r| dimension.compatible(&r))
-            {
+            .with_label_message(shown(dimension));
+            let rate = subject.dimension().div(&seconds());
+            let density = white_dimension(subject.dimension());
+            let process = subject.white != WhiteRule::NotProcess;
+            if process && rate.is_some_and(|r| dimension.compatible(&r)) {
                 d = d.with_hint(format!(
-                    "a figure in {} per second describes the rate: for continuous noise on the rate write `white(...)` with a density in {} (see `reckon explain E0404`)",
-                    subject.dimension,
-                    white_dimension(subject.dimension).map_or_else(|| "?".to_string(), |w| w.to_string())
+                    "this figure is per second, so it describes the rate: {}",
+                    subject.rate_conversions(value)
                 ));
-            } else if white_dimension(subject.dimension).is_some_and(|w| dimension.compatible(&w)) {
+            } else if process && density.is_some_and(|w| dimension.compatible(&w)) {
+                let q = subject.per_second_in_declared(value);
+                let unit = &subject.unit.text;
                 d = d.with_hint(match subject.white {
-                    WhiteRule::Allowed => "this looks like a white-noise density: write `white(...)`".to_string(),
-                    _ => "this looks like a white-noise density; a density q over a step dt is a per-step sigma of q * sqrt(dt)".to_string(),
+                                        WhiteRule::Allowed => format!(
+                        "this looks like a white-noise density: write `white({} {}/sqrt(Hz))`",
+                        fmt_value(q),
+                        per_second(unit)
+                    ),
+                    _ => format!(
+                        "this looks like a white-noise density; a density q over a step dt is a per-step sigma of q * sqrt(dt): at {EXAMPLE_RATE_HZ} Hz, `normal({} {unit})`",
+                        fmt_value(q / EXAMPLE_RATE_HZ.sqrt())
+                    ),
                 });
             }
             return Err(self.report(d));
         }
-        if dimension.angle_cycle_conflict(&subject.dimension) {
-            return Err(self.report(self.cycle_conflict(span, dimension, subject.dimension)));
+        if dimension.angle_cycle_conflict(&subject.dimension()) {
+            return Err(self.report(self.cycle_conflict(span, dimension, subject.dimension())));
         }
         Ok(())
     }
@@ -235,7 +310,7 @@ impl Checker {
             ));
         };
         let (amplitude, dimension) = self.constant(expr)?;
-        let Some(expected) = white_dimension(subject.dimension) else {
+        let Some(expected) = white_dimension(subject.dimension()) else {
             return Err(self.report(Diagnostic::new(
                 codes::DIMENSION_OVERFLOW,
                 expr.span,
@@ -246,23 +321,19 @@ impl Checker {
             let mut d = Diagnostic::new(
                 codes::WHITE_DIMENSION,
                 expr.span,
-                format!("a white-noise density on {} must be {expected}, but this is {dimension}", subject.what),
+                format!("a white-noise density on {} must be {expected}, but this is {}", subject.what, shown(dimension)),
             )
-            .with_label_message(format!("{dimension}"))
+            .with_label_message(shown(dimension))
             .with_note(format!("the density is the square root of the PSD of the rate: [state]/s/sqrt(Hz) = {expected}"));
-            let rate = subject.dimension.div(&seconds());
+            let rate = subject.dimension().div(&seconds());
             if rate.is_some_and(|r| dimension.compatible(&r)) {
-                // A rate noise of standard deviation s sampled at f Hz has a two-sided
-                // PSD of s^2 / f (common practice, no source).
+                d = d.with_hint(subject.rate_conversions(amplitude));
+            } else if dimension.compatible(&subject.dimension()) {
                 d = d.with_hint(format!(
-                    "if {} {dimension} is the sigma of the rate sampled at {EXAMPLE_RATE_HZ} Hz, the density is {} {dimension}/sqrt(Hz)",
-                    fmt_value(amplitude),
-                    fmt_value(amplitude / EXAMPLE_RATE_HZ.sqrt())
+                    "a figure in the state's own unit is per-step noise: write `normal({} {})`",
+                    fmt_value(amplitude / subject.unit.to_si),
+                    subject.unit.text
                 ));
-            } else if dimension.compatible(&subject.dimension) {
-                d = d.with_hint(
-                    "a figure in the state's own unit is per-step noise: write `normal(sigma)`",
-                );
             }
             return Err(self.report(d));
         }
@@ -329,9 +400,9 @@ impl Checker {
         if failed {
             return Err(Reported);
         }
-        for i in 0..n {
-            for j in 0..i {
-                let (a, b) = (matrix[i][j], matrix[j][i]);
+        for (i, row) in matrix.iter().enumerate() {
+            for (j, &a) in row.iter().enumerate().take(i) {
+                let b = matrix[j][i];
                 if (a - b).abs() > 1e-9 * a.abs().max(b.abs()) {
                     return Err(self.report(
                         Diagnostic::new(
@@ -393,6 +464,15 @@ fn cholesky_failure(matrix: &[Vec<f64>]) -> Option<usize> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn hint_values_keep_four_significant_digits() {
+        assert_eq!(fmt_value(0.03), "0.03");
+        assert_eq!(fmt_value(0.123456), "0.1235");
+        assert_eq!(fmt_value(1234.5678), "1235");
+        assert_eq!(fmt_value(3.2320912e-7), "3.232e-7");
+        assert_eq!(fmt_value(0.0), "0");
+    }
 
     #[test]
     fn cholesky_accepts_spd_and_refuses_the_rest() {

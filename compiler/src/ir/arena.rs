@@ -10,7 +10,6 @@
 //! - `x + 0`, `0 + x`, `x - 0` -> `x`; `0 - x` -> `-x`; `x - x` -> `0`;
 //!   `x * 1`, `x / 1`, `x ^ 1` -> `x`; `x * -1`, `x / -1` -> `-x`;
 //!   `x ^ 0`, `1 ^ x` -> `1` (as IEEE `pow` defines them even for NaN);
-//!   `x ^ 2` -> `x * x` (the correctly rounded square);
 //!   `-(-x)` -> `x`; `a - (-b)` -> `a + b`; `a + (-b)`, `(-b) + a` -> `a - b`;
 //!   `(-a) * b`, `a * (-b)` -> `-(a * b)` and the same for `/` (IEEE rounding is
 //!   symmetric in sign, so these are exact); `abs(-x)`, `abs(abs x)` -> `abs x`;
@@ -19,7 +18,10 @@
 //!   operands (`inf * 0` and `0 / 0` are NaN): derivatives are full of zero factors,
 //!   and a Jacobian entry that is structurally zero must be exactly zero, not NaN
 //!   wherever some unrelated factor overflows.
-//! - zeros produced by these rules may lose their sign (`-0.0 + 0.0` is `+0.0`).
+//! - zeros produced by these rules may lose their sign (`-0.0 + 0.0` is `+0.0`,
+//!   `x * 0` is `+0.0` for negative `x`). Values stay equal as numbers; the one
+//!   visible effect is `atan2(±0, negative)`, which gives `pi` or `-pi`, the two
+//!   representations of one angle (both wrap to `pi`).
 //!
 //! Operands of `+` and `*` are put in handle order before interning, so `a + b` and
 //! `b + a` are one node (IEEE `+` and `*` commute exactly). Nothing is reassociated:
@@ -240,7 +242,6 @@ impl Arena {
             Binary::Pow if self.is_constant(b, 0.0) || self.is_constant(a, 1.0) => {
                 self.constant(1.0)
             }
-            Binary::Pow if self.is_constant(b, 2.0) => self.mul(a, a),
             Binary::Min | Binary::Max if a == b => a,
             _ => return None,
         })
@@ -262,13 +263,6 @@ impl Arena {
             .filter(|(_, &s)| s)
             .map(|(i, _)| NodeId(i as u32))
             .collect()
-    }
-
-    /// True when `symbol` occurs in the expression `root`.
-    pub fn depends_on(&self, root: NodeId, symbol: Symbol) -> bool {
-        self.reachable(&[root])
-            .into_iter()
-            .any(|id| *self.node(id) == Node::Symbol(symbol))
     }
 
     /// `root` with symbols replaced by nodes (`replace` returns `None` to keep a
@@ -313,7 +307,24 @@ impl Arena {
 
 #[cfg(test)]
 mod tests {
+    use super::super::eval::{Bindings, Evaluator};
+    use super::super::test_trees::{build, eval_direct, tree};
     use super::*;
+    use proptest::prelude::*;
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 1000, ..ProptestConfig::default() })]
+        #[test]
+        fn simplification_never_changes_a_finite_value(t in tree(), x0 in -2.0f64..2.0, x1 in -2.0f64..2.0) {
+            let direct = eval_direct(&t, [x0, x1]);
+            prop_assume!(direct.is_some());
+            let mut arena = Arena::new();
+            let root = build(&mut arena, &t);
+            let simplified = Evaluator::new(&arena, &[root]).eval(&Bindings::new(vec![x0, x1], vec![], 0.0))[0];
+            // Equal as numbers (a zero may change sign), bit for bit otherwise.
+            prop_assert!(direct == Some(simplified), "{:?} vs {}", direct, simplified);
+        }
+    }
 
     fn xy(arena: &mut Arena) -> (NodeId, NodeId) {
         (
@@ -367,9 +378,10 @@ mod tests {
         let x_minus_y = arena.sub(x, y);
         assert_eq!(arena.add(x, ny), x_minus_y);
         assert_eq!(arena.binary(Binary::Pow, x, one), x);
+        // x^2 stays a power: `powf(x, 2)` and `x * x` may differ in the last bit.
         let two = arena.constant(2.0);
         let square = arena.binary(Binary::Pow, x, two);
-        assert_eq!(*arena.node(square), Node::Binary(Binary::Mul, x, x));
+        assert_eq!(*arena.node(square), Node::Binary(Binary::Pow, x, two));
         // (x + y) + 1 and x + (y + 1) stay distinct.
         let left = arena.add(x_plus_y, one);
         let y1 = arena.add(y, one);

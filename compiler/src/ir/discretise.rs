@@ -378,19 +378,20 @@ fn factorial(k: usize) -> f64 {
     (1..=k).map(|i| i as f64).product()
 }
 
-/// `sum_p coeffs[p] dt^p`, in increasing powers.
+/// `sum_p coeffs[p] dt^p`, in increasing powers; `dt^p` is the product
+/// `((dt * dt) * dt) ...`, shared between all polynomials.
 fn polynomial_in_dt(arena: &mut Arena, coeffs: &[f64]) -> NodeId {
     let dt = arena.symbol(Symbol::Dt);
-    let terms: Vec<NodeId> = coeffs
-        .iter()
-        .enumerate()
-        .filter(|(_, &c)| c != 0.0)
-        .map(|(p, &c)| {
-            let exponent = arena.constant(p as f64);
-            let power = arena.binary(super::Binary::Pow, dt, exponent);
-            arena.scale(c, power)
-        })
-        .collect();
+    let mut power = arena.constant(1.0);
+    let mut terms = Vec::new();
+    for (p, &c) in coeffs.iter().enumerate() {
+        if p > 0 {
+            power = arena.mul(power, dt);
+        }
+        if c != 0.0 {
+            terms.push(arena.scale(c, power));
+        }
+    }
     arena.sum(terms)
 }
 

@@ -92,3 +92,27 @@ fn write_dump(lowered: &Lowered, out: &mut String) -> std::fmt::Result {
     }
     Ok(())
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::lower::{lower, LowerOptions};
+    use super::super::test_models::{constant_velocity, damped_oscillator};
+    use super::*;
+
+    fn dumped(model: &crate::model::Model) -> String {
+        match lower(model, &LowerOptions::default()) {
+            Ok(l) => dump(&l),
+            Err(d) => panic!("{d:?}"),
+        }
+    }
+
+    #[test]
+    fn constant_velocity_dump() {
+        insta::assert_snapshot!(dumped(&constant_velocity(1.0)));
+    }
+
+    #[test]
+    fn run_time_exponential_dump() {
+        insta::assert_snapshot!(dumped(&damped_oscillator(4.0, 0.5)));
+    }
+}

@@ -322,20 +322,36 @@ impl Evaluator {
 
     /// The values of the roots, in the order they were given.
     pub fn eval<T: Float>(&self, symbols: &impl SymbolValues<T>) -> Vec<T> {
-        let mut values: Vec<T> = Vec::with_capacity(self.steps.len());
+        let mut out = vec![T::NAN; self.roots.len()];
+        self.eval_into(symbols, &mut Vec::with_capacity(self.steps.len()), &mut out);
+        out
+    }
+
+    /// Like [`eval`](Self::eval) without allocating: node values go to `scratch`
+    /// (cleared first; its capacity is reused between calls) and the roots' values
+    /// to `out`, which holds one slot per root (extra slots are left alone).
+    pub fn eval_into<T: Float>(
+        &self,
+        symbols: &impl SymbolValues<T>,
+        scratch: &mut Vec<T>,
+        out: &mut [T],
+    ) {
+        scratch.clear();
         for step in &self.steps {
             let value = match *step {
                 Step::Const(c) => T::from_f64(c),
                 Step::Symbol(s) => symbols.value(s),
-                Step::Unary(op, x) => apply_unary(op, values[x]),
-                Step::Binary(op, a, b) => apply_binary(op, values[a], values[b]),
+                Step::Unary(op, x) => apply_unary(op, scratch[x]),
+                Step::Binary(op, a, b) => apply_binary(op, scratch[a], scratch[b]),
                 Step::Select(l, r, t, o) => {
-                    apply_select(values[l], values[r], values[t], values[o])
+                    apply_select(scratch[l], scratch[r], scratch[t], scratch[o])
                 }
             };
-            values.push(value);
+            scratch.push(value);
         }
-        self.roots.iter().map(|&r| values[r]).collect()
+        for (slot, &root) in out.iter_mut().zip(&self.roots) {
+            *slot = scratch[root];
+        }
     }
 }
 

@@ -7,6 +7,17 @@
 //! residual. All of them are [`NodeId`]s into one [`Arena`], so a sub-expression
 //! shared by `f`, `F`, `h` and `H` is computed once.
 //!
+//! # At a glance
+//! ```text
+//! let l = ir::lower(&model, &LowerOptions::default())?;     // Integrator::Auto
+//! l.transition[i], l.f_jac.get(i, j), l.g_jac, l.q, l.q_white  // NodeIds / NodeMatrix
+//! l.sensors[s].h, .h_jac, .residual, .noise_cov                // per sensor
+//! l.analysis.f_sparsity.is_nonzero(i, j)                      // structural zeros
+//! l.discretisation.{method, noise_method, reason, linear_system}
+//! Evaluator::new(&l.arena, &roots).eval(&Bindings::new(x, u, dt))  // f32 or f64
+//! ir::dump(&l)                                                 // text for `dump --ir`
+//! ```
+//!
 //! # Contract for back ends
 //! - A node's operands have smaller handles; evaluating nodes in increasing handle
 //!   order, each once, is the evaluation order (see [`eval`] for the full contract,
@@ -33,6 +44,8 @@ pub mod verify;
 
 #[cfg(test)]
 pub(crate) mod test_models;
+#[cfg(test)]
+mod test_trees;
 
 use std::fmt;
 

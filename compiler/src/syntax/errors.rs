@@ -175,9 +175,13 @@ pub(super) fn syntax_error(
     let mut at = (offset + relative).min(text.len());
     // A reserved word where a name belongs fails inside the word's own rule; point
     // at the whole word rather than at the blank after it.
-    let word_start = text[..at]
-        .rfind(|c: char| !(c.is_ascii_alphanumeric() || c == '_'))
-        .map_or(0, |n| n + 1);
+    // Name characters are ASCII, one byte each.
+    let word_start = at
+        - text[..at]
+            .chars()
+            .rev()
+            .take_while(|c| c.is_ascii_alphanumeric() || *c == '_')
+            .count();
     if words.contains(&"a name") && RESERVED.contains(&&text[word_start..at]) {
         at = word_start;
     }

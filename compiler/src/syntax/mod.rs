@@ -50,7 +50,7 @@ pub(crate) fn parse_here(text: &str) -> (Option<File>, Vec<Diagnostic>) {
         let end = starts.get(i + 1).copied().unwrap_or(text.len());
         match parser::parse_item(text, start, end, &mut docs) {
             Ok(item) => items.push(item),
-            Err(diagnostic) => diagnostics.push(diagnostic),
+            Err(diagnostic) => diagnostics.push(*diagnostic),
         }
     }
     for doc in docs.unclaimed() {

@@ -33,14 +33,18 @@ pub(super) fn parse_item(
     offset: usize,
     end: usize,
     docs: &mut DocTable,
-) -> Result<Item, Diagnostic> {
+) -> Built<Item> {
     let mut pairs = SpecGrammar::parse(Rule::chunk, &text[offset..end])
-        .map_err(|e| super::errors::syntax_error(&e, text, offset))?;
+        .map_err(|e| Box::new(super::errors::syntax_error(&e, text, offset)))?;
     let item = pairs
         .next()
         .and_then(|chunk| chunk.into_inner().next())
         .ok_or_else(|| {
-            Diagnostic::new(codes::INTERNAL, Span::new(offset, offset), "empty parse")
+            Box::new(Diagnostic::new(
+                codes::INTERNAL,
+                Span::new(offset, offset),
+                "empty parse",
+            ))
         })?;
     Builder { offset, docs }.item(item)
 }
@@ -93,7 +97,9 @@ struct Builder<'d> {
     docs: &'d mut DocTable,
 }
 
-type Built<T> = Result<T, Diagnostic>;
+/// Parse-tree walks stop at the first problem in an item; the diagnostic is boxed
+/// to keep the happy path's `Result` small.
+type Built<T> = Result<T, Box<Diagnostic>>;
 
 fn children(pair: Pair<'_, Rule>) -> Vec<Pair<'_, Rule>> {
     pair.into_inner().collect()
@@ -175,12 +181,12 @@ impl Builder<'_> {
         })
     }
 
-    fn unexpected(&self, span: Span) -> Diagnostic {
-        Diagnostic::new(
+    fn unexpected(&self, span: Span) -> Box<Diagnostic> {
+        Box::new(Diagnostic::new(
             codes::INTERNAL,
             span,
             "the parse tree has an unexpected shape",
-        )
+        ))
     }
 
     fn keyword_span<'i>(
@@ -497,12 +503,14 @@ impl Builder<'_> {
     fn deepen(&self, expr: Expr, child_depth: usize) -> Built<(Expr, usize)> {
         let depth = child_depth + 1;
         if depth > MAX_NESTING {
-            return Err(Diagnostic::new(
-                codes::TOO_DEEP,
-                expr.span,
-                format!("this expression is nested more than {MAX_NESTING} levels deep"),
-            )
-            .with_hint("split it with named constants or simplify it"));
+            return Err(Box::new(
+                Diagnostic::new(
+                    codes::TOO_DEEP,
+                    expr.span,
+                    format!("this expression is nested more than {MAX_NESTING} levels deep"),
+                )
+                .with_hint("split it with named constants or simplify it"),
+            ));
         }
         Ok((expr, depth))
     }
@@ -585,13 +593,15 @@ impl Builder<'_> {
             .parse()
             .map_err(|_| self.unexpected(self.span(pair)))?;
         if !value.is_finite() {
-            return Err(Diagnostic::new(
-                codes::NUMBER_OUT_OF_RANGE,
-                self.span(pair),
-                format!("the number `{text}` is too large to represent"),
-            )
-            .with_label_message("larger than about 1.8e308")
-            .with_hint("write the value in a larger unit, or check the exponent"));
+            return Err(Box::new(
+                Diagnostic::new(
+                    codes::NUMBER_OUT_OF_RANGE,
+                    self.span(pair),
+                    format!("the number `{text}` is too large to represent"),
+                )
+                .with_label_message("larger than about 1.8e308")
+                .with_hint("write the value in a larger unit, or check the exponent"),
+            ));
         }
         Ok((value, text.to_string()))
     }
@@ -602,7 +612,19 @@ impl Builder<'_> {
         let span = self.span(&pair);
         match pair.as_rule() {
             Rule::unit | Rule::literal_unit => {
-                let mut parts = children(pair).into_iter();
+                let parts = children(pair);
+                // Products build a left-deep tree; bound it like expressions.
+                if parts.len() > 2 * MAX_NESTING {
+                    return Err(Box::new(
+                        Diagnostic::new(
+                            codes::TOO_DEEP,
+                            span,
+                            format!("this unit has more than {MAX_NESTING} factors"),
+                        )
+                        .with_hint("write the unit with exponents, e.g. `m^3` for `m*m*m`"),
+                    ));
+                }
+                let mut parts = parts.into_iter();
                 let mut acc = self.unit(parts.next().ok_or_else(|| self.unexpected(span))?)?;
                 while let Some(op) = parts.next() {
                     let rhs = self.unit(parts.next().ok_or_else(|| self.unexpected(span))?)?;
@@ -667,13 +689,14 @@ impl Builder<'_> {
             if part.as_rule() == Rule::neg_sign {
                 negative = true;
             } else {
-                let parsed: i64 = part.as_str().parse().map_err(|_| {
+                let parsed: i64 = part.as_str().parse().map_err(|_| -> Box<Diagnostic> {
                     Diagnostic::new(
                         codes::NUMBER_OUT_OF_RANGE,
                         self.span(&part),
                         format!("the exponent `{}` is too large", part.as_str()),
                     )
                     .with_hint("unit exponents are small whole numbers or fractions such as `2` or `(1/2)`")
+                    .into()
                 })?;
                 numbers.push(parsed);
             }

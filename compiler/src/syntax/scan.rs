@@ -138,14 +138,14 @@ fn first_code_offset(text: &str) -> usize {
     }
 }
 
-/// The span of the first bracket (or power operator) that nests deeper than
-/// [`MAX_NESTING`], if any. Chained `^` count as nesting because the grammar's
-/// right-associative powers recurse once per operator; the count restarts at every
-/// separator that ends an expression, so long flat sums are not affected.
+/// The span of the first bracket (or chained operator) that nests deeper than
+/// [`MAX_NESTING`], if any. Chained `^` and `-` count as nesting because
+/// right-associative powers and prefix minus recurse once per operator in the
+/// parser; the count restarts at every separator that ends an expression.
 pub fn too_deep(text: &str) -> Option<Span> {
     let bytes = text.as_bytes();
     let mut depth: usize = 0;
-    let mut powers: usize = 0;
+    let mut chained: usize = 0;
     let mut i = 0;
     while i < bytes.len() {
         match bytes[i] {
@@ -155,17 +155,17 @@ pub fn too_deep(text: &str) -> Option<Span> {
             }
             b'(' | b'[' | b'{' => {
                 depth += 1;
-                powers = 0;
+                chained = 0;
             }
             b')' | b']' | b'}' => {
                 depth = depth.saturating_sub(1);
-                powers = 0;
+                chained = 0;
             }
-            b'^' => powers += 1,
-            b',' | b';' | b'=' | b'~' => powers = 0,
+            b'^' | b'-' => chained += 1,
+            b',' | b';' | b'=' | b'~' => chained = 0,
             _ => {}
         }
-        if depth + powers > MAX_NESTING {
+        if depth + chained > MAX_NESTING {
             return Some(Span::new(i, i + 1));
         }
         i += 1;
@@ -219,6 +219,8 @@ mod tests {
         assert_eq!(too_deep(&shallow), None);
         let powers = format!("const c = 2{}", "^2".repeat(300));
         assert!(too_deep(&powers).is_some());
+        let minus = format!("const c = {}2", "-".repeat(300));
+        assert!(too_deep(&minus).is_some());
         let sum = format!("const c = 2{}", "+2".repeat(3000));
         assert_eq!(too_deep(&sum), None);
     }

@@ -17,7 +17,9 @@ pub(crate) fn refuse_method(method: Method) -> Vec<Diagnostic> {
         Span::default(),
         format!("method `{}` cannot be generated yet", method.name()),
     )
-    .with_note("the method was chosen in the build options (reckon.toml, command line or build script)")
+    .with_note(
+        "the method was chosen in the build options (reckon.toml, command line or build script)",
+    )
     .with_hint("choose `kf`, `ekf` or `ukf`")]
 }
 
@@ -35,23 +37,28 @@ pub(crate) fn check(
     if options.method == Method::Ukf {
         errors.extend(unscented_parameters(model, options));
     }
+    errors.extend(gate_thresholds(model));
     if !errors.is_empty() {
         return Err(errors);
     }
     let mut warnings = initial_beliefs(model);
     if options.update == UpdateForm::Sequential {
-        warnings.extend(model.sensors.iter().filter_map(|sensor| {
-            matches!(sensor.noise, SensorNoise::Covariance(_)).then(|| {
-                Diagnostic::new(
-                    codes::SEQUENTIAL_NEEDS_DIAGONAL_NOISE,
-                    sensor.span,
-                    format!(
-                        "sensor `{}` has correlated reading noise; it is corrected with the Joseph form",
-                        sensor.name
-                    ),
-                )
-            })
-        }));
+        warnings.extend(
+            model
+                .sensors
+                .iter()
+                .filter(|sensor| matches!(sensor.noise, SensorNoise::Covariance(_)))
+                .map(|sensor| {
+                    Diagnostic::new(
+                        codes::SEQUENTIAL_NEEDS_DIAGONAL_NOISE,
+                        sensor.span,
+                        format!(
+                            "sensor `{}` has correlated reading noise; it is corrected with the Joseph form",
+                            sensor.name
+                        ),
+                    )
+                }),
+        );
     }
     Ok(warnings)
 }
@@ -100,10 +107,7 @@ fn gaussian_noise(model: &Model) -> Vec<Diagnostic> {
                 if !distribution.is_gaussian() {
                     errors.push(refuse_distribution(
                         component.span,
-                        format!(
-                            "the reading noise of `{}.{}`",
-                            sensor.name, component.name
-                        ),
+                        format!("the reading noise of `{}.{}`", sensor.name, component.name),
                         distribution,
                     ));
                 }
@@ -166,6 +170,31 @@ fn unscented_parameters(model: &Model, options: &EstimatorOptions) -> Vec<Diagno
         ),
     )
     .with_hint("use alpha in (0, 1] and kappa >= 0")]
+}
+
+/// The checker keeps gate probabilities in (0, 1), where every quantile exists; a
+/// gate without one would silently reject every reading, so it is refused.
+fn gate_thresholds(model: &Model) -> Vec<Diagnostic> {
+    model
+        .sensors
+        .iter()
+        .filter_map(|sensor| {
+            let gate = sensor.gate?;
+            let dof = sensor.components.len() as u32;
+            crate::stats::chi2_quantile(gate.probability, dof)
+                .is_none()
+                .then(|| {
+                    Diagnostic::new(
+                        codes::INTERNAL,
+                        gate.span,
+                        format!(
+                            "no chi-square quantile for probability {} with {dof} degrees of freedom",
+                            gate.probability
+                        ),
+                    )
+                })
+        })
+        .collect()
 }
 
 fn initial_beliefs(model: &Model) -> Vec<Diagnostic> {

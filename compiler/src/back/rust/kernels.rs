@@ -39,7 +39,7 @@ impl Pattern {
             .entries()
             .iter()
             .map(|&id| match arena.constant_value(id) {
-                Some(value) if value == 0.0 => Entry::Zero,
+                Some(0.0) => Entry::Zero,
                 Some(value) => Entry::Constant(value),
                 None => Entry::Variable,
             })
@@ -139,8 +139,8 @@ fn sum_of_products(terms: Vec<(Factor, Code)>, scalar: Scalar) -> Option<Code> {
     terms
         .into_iter()
         .map(|(factor, value)| match factor {
-            Factor::Constant(c) if c == 1.0 => value,
-            Factor::Constant(c) if c == -1.0 => value.neg(),
+            Factor::Constant(1.0) => value,
+            Factor::Constant(-1.0) => value.neg(),
             Factor::Constant(c) => number(c, scalar).binary(quote!(*), &value, Prec::Product),
             Factor::Value(f) => f.binary(quote!(*), &value, Prec::Product),
         })
@@ -316,9 +316,7 @@ pub(crate) fn cross_covariance(h: &Pattern, scalar: Scalar) -> TokenStream {
             }
         }
     }
-    let h_read = destructure(quote!(h), "h", m, n, |r, c| {
-        h.get(r, c) == Entry::Variable
-    });
+    let h_read = destructure(quote!(h), "h", m, n, |r, c| h.get(r, c) == Entry::Variable);
     let p_read = destructure(quote!(p), "p", n, n, |r, c| p_reads.get(r, c));
     let result = construct(n, m, |r, c| {
         if nonzero[r * m + c] {
@@ -382,9 +380,7 @@ pub(crate) fn innovation_covariance(h: &Pattern, r: &Pattern, scalar: Scalar) ->
     } else {
         quote!()
     };
-    let pht_read = destructure(quote!(pht), "pht", n, m, |row, col| {
-        pht_reads.get(row, col)
-    });
+    let pht_read = destructure(quote!(pht), "pht", n, m, |row, col| pht_reads.get(row, col));
     let r_read = destructure(quote!(r), "r", m, m, |row, col| {
         row <= col && r.get(row, col) != Entry::Zero
     });

@@ -194,10 +194,11 @@ pub(crate) fn emit(ctx: &Context) -> Models {
         }
     } else {
         let size = lowered.state_count;
-        let (x_param, u_param, dt_param, prelude, lets, assign) = function(ctx, &f_block, |roots| {
-            let matrix = construct(size, size, |r, c| roots[r * size + c].tokens.clone());
-            quote!(*jacobian = #matrix;)
-        });
+        let (x_param, u_param, dt_param, prelude, lets, assign) =
+            function(ctx, &f_block, |roots| {
+                let matrix = construct(size, size, |r, c| roots[r * size + c].tokens.clone());
+                quote!(*jacobian = #matrix;)
+            });
         quote! {
             fn transition_jacobian(&self, #x_param: &SVector<#t, #n>, #u_param: &SVector<#t, #u>, #dt_param: #t, jacobian: &mut SMatrix<#t, #n, #n>) {
                 #prelude
@@ -267,9 +268,20 @@ fn names_doc(text: &str) -> TokenStream {
 }
 
 /// Parameter names, prelude, lets and the final statement of a motion function.
-type MotionFunction = (Ident, Ident, Ident, TokenStream, Vec<TokenStream>, TokenStream);
+type MotionFunction = (
+    Ident,
+    Ident,
+    Ident,
+    TokenStream,
+    Vec<TokenStream>,
+    TokenStream,
+);
 
-fn function(ctx: &Context, block: &Block, finish: impl Fn(&[Code]) -> TokenStream) -> MotionFunction {
+fn function(
+    ctx: &Context,
+    block: &Block,
+    finish: impl Fn(&[Code]) -> TokenStream,
+) -> MotionFunction {
     let reads = Reads::of(&block.symbols);
     (
         param("x", !reads.states.is_empty()),
@@ -480,7 +492,9 @@ fn sensor_impl(ctx: &Context, index: usize) -> (TokenStream, MathTraits) {
 
     let (noise_body, r_pattern) = match &spec.noise {
         SensorNoise::PerComponent(_) => {
-            let fields: Vec<Ident> = (0..m_size).map(|c| ctx.tuning_component(index, c)).collect();
+            let fields: Vec<Ident> = (0..m_size)
+                .map(|c| ctx.tuning_component(index, c))
+                .collect();
             let zero = number(0.0, ctx.scalar).tokens;
             let matrix = construct(m_size, m_size, |r, c| {
                 if r == c {

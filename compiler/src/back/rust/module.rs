@@ -46,7 +46,10 @@ impl Context<'_> {
     }
 
     fn gate_constant(&self, sensor: usize) -> Ident {
-        let name = format!("{}_GATE", self.model.sensors[sensor].name.to_ascii_uppercase());
+        let name = format!(
+            "{}_GATE",
+            self.model.sensors[sensor].name.to_ascii_uppercase()
+        );
         Ident::new(&name, proc_macro2::Span::call_site())
     }
 
@@ -155,8 +158,9 @@ fn constants(ctx: &Context) -> TokenStream {
             let name = ctx.gate_constant(index);
             let value = ctx.number(threshold);
             let doc = doc(format!(
-                "Default innovation gate of sensor `{}`: the chi-square quantile of probability {} for {dof} degrees of freedom (computed at build time), compared with the normalised innovation squared.",
-                sensor.name, gate.probability
+                "Default innovation gate of sensor `{}`: the {} % quantile of the chi-square distribution with {dof} degrees of freedom (computed at build time), compared with the normalised innovation squared.",
+                sensor.name,
+                percent(gate.probability)
             ));
             Some(quote! {
                 #doc
@@ -206,6 +210,13 @@ fn constants(ctx: &Context) -> TokenStream {
         #(#gates)*
         #weights
     }
+}
+
+/// A probability as a percentage without the round-off of the division by 100
+/// (`0.9990000000000001` reads `99.9`).
+fn percent(probability: f64) -> String {
+    let text = format!("{:.9}", probability * 100.0);
+    text.trim_end_matches('0').trim_end_matches('.').to_string()
 }
 
 /// `to_array` and `from_array`: the fields in declaration order, for logging and for
@@ -362,7 +373,10 @@ fn reading_struct(ctx: &Context, index: usize) -> TokenStream {
         .components
         .iter()
         .map(|c| (c.name.as_str(), &c.doc, &c.unit, c.wrap));
-    let own = sensor.doc.as_deref().map_or(String::new(), |d| format!("{d} "));
+    let own = sensor
+        .doc
+        .as_deref()
+        .map_or(String::new(), |d| format!("{d} "));
     declared_struct(
         ctx,
         &ty,
@@ -521,7 +535,9 @@ fn dynamics_value(ctx: &Context, models: &models::Models) -> TokenStream {
             quote!(Dynamics::discretised(dt))
         }
     } else if models.dynamics_reads_tuning {
-        quote!(Dynamics { tuning: &self.tuning })
+        quote!(Dynamics {
+            tuning: &self.tuning
+        })
     } else {
         quote!(Dynamics)
     }
@@ -564,7 +580,9 @@ fn estimator(ctx: &Context, models: &models::Models) -> TokenStream {
     };
     let dynamics = dynamics_value(ctx, models);
     let predict_call = if ukf {
-        quote!(self.filter.predict_unscented(&dynamics, &input.si_vector(), dt, &WEIGHTS))
+        quote!(self
+            .filter
+            .predict_unscented(&dynamics, &input.si_vector(), dt, &WEIGHTS))
     } else {
         quote!(self.filter.predict(&dynamics, &input.si_vector(), dt))
     };
@@ -694,7 +712,11 @@ fn dynamics(ctx: &Context, models: &models::Models) -> TokenStream {
     let size = ctx.lowered.state_count;
     let n = usize_literal(size);
     let stores_tuning = models.dynamics_reads_tuning;
-    let lifetime = if stores_tuning { quote!(<'a>) } else { quote!() };
+    let lifetime = if stores_tuning {
+        quote!(<'a>)
+    } else {
+        quote!()
+    };
     let mut fields = Vec::new();
     let mut values = Vec::new();
     if stores_tuning {

@@ -96,6 +96,8 @@ fn every_front_end_code_is_produced_by_the_corpus() {
         .iter()
         .map(|c| c.id)
         .filter(|id| *id != codes::INTERNAL.id && !id.starts_with("E06") && !id.starts_with("E07"))
+        // Back-end warnings; the Rust back end's tests produce each of them.
+        .filter(|id| !id.starts_with("W085"))
         .filter(|id| !produced.contains(id))
         .collect();
     assert!(missing.is_empty(), "codes with no corpus case: {missing:?}");

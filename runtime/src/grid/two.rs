@@ -1,0 +1,353 @@
+//! The 2-D grid filter: `NX x NY` cells stored row by row in one flat array.
+
+use nalgebra::{Matrix2, RealField, SVector, Vector2};
+
+use super::line::Axis;
+use super::model::{
+    validate_reading, validate_step, CorrectError, Likelihood, Motion, PredictError,
+};
+use super::noise::Noise;
+use super::plane::Plane;
+use super::{
+    axis_kernel, checked_translation, record_mode, GridCorrection, GridError, GridOptions,
+    GridPrediction, Mode,
+};
+
+/// A belief over two state components `(x, y)` on `NX x NY` cells. See the
+/// [module](super) for the discretisation, the boundary policy and the cost.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Grid2<T, const NX: usize, const NY: usize> {
+    plane: Plane<T, NX, NY>,
+}
+
+impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
+    /// A belief with the given (unnormalised, non-negative) masses, `masses[iy][ix]`.
+    pub fn from_masses(
+        x: Axis<T, NX>,
+        y: Axis<T, NY>,
+        masses: [[T; NX]; NY],
+        options: GridOptions<T>,
+    ) -> Result<Self, GridError> {
+        Ok(Self {
+            plane: Plane::new(x, y, masses, options)?,
+        })
+    }
+
+    /// The same mass in every cell.
+    pub fn uniform(
+        x: Axis<T, NX>,
+        y: Axis<T, NY>,
+        options: GridOptions<T>,
+    ) -> Result<Self, GridError> {
+        Self::from_masses(x, y, [[T::one(); NX]; NY], options)
+    }
+
+    /// Independent densities `shape[0]` along x and `shape[1]` along y centred at
+    /// `mean`, integrated over each cell.
+    pub fn from_density(
+        x: Axis<T, NX>,
+        y: Axis<T, NY>,
+        mean: Vector2<T>,
+        shape: [Noise<T>; 2],
+        options: GridOptions<T>,
+    ) -> Result<Self, GridError> {
+        if mean.iter().any(|m| !m.is_finite()) {
+            return Err(GridError::NonFiniteMean);
+        }
+        shape[0].validate()?;
+        shape[1].validate()?;
+        let along_x = x.cell_masses(mean[0], &shape[0]);
+        let along_y = y.cell_masses(mean[1], &shape[1]);
+        let masses = along_y.map(|row_mass| along_x.map(|col_mass| row_mass * col_mass));
+        Self::from_masses(x, y, masses, options)
+    }
+
+    /// Moves the belief one step through `model`. Rejected (belief unchanged) when the
+    /// step, the input, the noise or a transition is invalid, or when all mass leaves.
+    pub fn predict<const U: usize>(
+        &mut self,
+        model: &impl Motion<T, 2, U>,
+        u: &SVector<T, U>,
+        dt: T,
+    ) -> Result<GridPrediction<T>, PredictError> {
+        let [noise_x, noise_y] = validate_step(model, u, dt)?;
+        let translation = checked_translation(model.translation(u, dt))?;
+        let kernel_x = axis_kernel(&self.plane.x, &noise_x, translation.map(|t| t[0]));
+        let kernel_y = axis_kernel(&self.plane.y, &noise_y, translation.map(|t| t[1]));
+        match translation {
+            Some(_) => self.plane.translate(&kernel_x, Some(&kernel_y)),
+            None => self.plane.push(
+                |x, y| {
+                    let next = model.transition(&Vector2::new(x, y), u, dt);
+                    Some((next[0], next[1]))
+                },
+                &kernel_x,
+                Some(&kernel_y),
+            ),
+        }
+    }
+
+    /// Multiplies the belief by the likelihood of reading `z` and normalises. Rejected
+    /// (belief bit-identical) when `z` is not finite, the likelihood is NaN or `+inf`,
+    /// or it is zero wherever the belief has mass.
+    pub fn correct<const M: usize>(
+        &mut self,
+        likelihood: &impl Likelihood<T, 2, M>,
+        z: &SVector<T, M>,
+    ) -> Result<GridCorrection<T>, CorrectError> {
+        validate_reading(z)?;
+        self.plane
+            .correct(|x, y| likelihood.ln_likelihood(&Vector2::new(x, y), z))
+    }
+
+    /// The x and y axes.
+    pub fn axes(&self) -> (&Axis<T, NX>, &Axis<T, NY>) {
+        (&self.plane.x, &self.plane.y)
+    }
+
+    /// The masses, row by row: cell `(ix, iy)` at index `iy * NX + ix`.
+    pub fn masses(&self) -> &[T] {
+        self.plane.mass.as_flattened()
+    }
+
+    /// The mass of cell `(ix, iy)` (zero outside the grid).
+    pub fn mass_at(&self, ix: usize, iy: usize) -> T {
+        self.plane
+            .mass
+            .get(iy)
+            .and_then(|row| row.get(ix))
+            .copied()
+            .unwrap_or_else(T::zero)
+    }
+
+    /// The bounding box of the cells with mass, `((first_ix, last_ix), (first_iy,
+    /// last_iy))`; every cell outside is exactly zero.
+    pub fn support(&self) -> ((usize, usize), (usize, usize)) {
+        let support = self.plane.support;
+        (
+            (support.cols.first, support.cols.last),
+            (support.rows.first, support.rows.last),
+        )
+    }
+
+    /// The mean of the belief.
+    pub fn mean(&self) -> Vector2<T> {
+        let ([x, y], _) = self.plane.moments();
+        Vector2::new(x, y)
+    }
+
+    /// The covariance of the belief.
+    pub fn covariance(&self) -> Matrix2<T> {
+        let (_, [[xx, xy], [yx, yy]]) = self.plane.moments();
+        Matrix2::new(xx, xy, yx, yy)
+    }
+
+    /// Writes the local maxima (8-neighbourhood) holding at least `min_fraction_of_peak`
+    /// of the largest mass into `out` (row by row, as many as fit) and returns how many
+    /// there are. Of a plateau of equal masses only the last cell in row order counts.
+    pub fn modes(&self, min_fraction_of_peak: T, out: &mut [Mode<T, 2>]) -> usize {
+        let (x, y) = (self.plane.x, self.plane.y);
+        let mut found = 0;
+        self.plane.modes(min_fraction_of_peak, |row, col, mass| {
+            let mode = Mode {
+                cell: [col, row],
+                centre: Vector2::new(x.centre(col), y.centre(row)),
+                mass,
+            };
+            record_mode(out, found, mode);
+            found += 1;
+        })
+    }
+
+    /// The probability that the state lies in the rectangle `[x_lo, x_hi] x [y_lo,
+    /// y_hi]`: the mass of the cells whose centres do.
+    pub fn probability_in(&self, x: (T, T), y: (T, T)) -> T {
+        self.plane.probability_in(x, y)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use core::cell::Cell;
+
+    use nalgebra::SVector;
+
+    use super::*;
+    use crate::grid::test_models::{Direct, Drift, Mapped, ScalarKalman};
+    use crate::grid::ResidualLikelihood;
+
+    const H: f64 = 0.1;
+    type Plane2 = Grid2<f64, 120, 100>;
+
+    fn normal(std_dev: f64) -> Noise<f64> {
+        Noise::Normal { std_dev }
+    }
+
+    fn axes() -> (Axis<f64, 120>, Axis<f64, 100>) {
+        (
+            Axis::new(-6.0, H).expect("valid x axis"),
+            Axis::new(-5.0, H).expect("valid y axis"),
+        )
+    }
+
+    fn blob(mean: (f64, f64), spread: (f64, f64)) -> Plane2 {
+        let (x, y) = axes();
+        Grid2::from_density(
+            x,
+            y,
+            Vector2::new(mean.0, mean.1),
+            [normal(spread.0), normal(spread.1)],
+            GridOptions { skip_below: 0.0 },
+        )
+        .expect("valid prior")
+    }
+
+    #[test]
+    fn independent_axes_match_two_kalman_filters() {
+        // Closed form: one scalar Kalman recursion per axis (common practice, no
+        // source); tolerance as in the 1-D comparison: each discretisation adds about
+        // h^2/12 of variance per axis (Sheppard's correction, from memory), carried into
+        // the mean through |innovation| R/(P+R)^2.
+        let mut grid = blob((0.0, 0.0), (1.0, 0.6));
+        let mut kalman = [
+            ScalarKalman {
+                mean: 0.0,
+                variance: 1.0,
+            },
+            ScalarKalman {
+                mean: 0.0,
+                variance: 0.36,
+            },
+        ];
+        let motion = Drift {
+            noise: normal(0.3),
+            as_translation: true,
+        };
+        let reading = ResidualLikelihood(Direct { noise: normal(0.5) });
+        let velocity = Vector2::new(0.5, -0.3);
+        let sheppard = H * H / 12.0;
+        let mut variance_tolerance = sheppard;
+        let mut mean_tolerance = [0.0; 2];
+        for z in [
+            Vector2::new(0.4, -0.2),
+            Vector2::new(1.3, -0.9),
+            Vector2::new(1.2, -0.8),
+        ] {
+            grid.predict(&motion, &velocity, 1.0).expect("on grid");
+            variance_tolerance += sheppard;
+            grid.correct(&reading, &z).expect("consistent reading");
+            for (axis, filter) in kalman.iter_mut().enumerate() {
+                filter.predict(velocity[axis], 0.09);
+                let (factor, innovation) = filter.correct(z[axis], 0.25);
+                mean_tolerance[axis] += innovation.abs() * factor * variance_tolerance;
+            }
+        }
+        let (mean, covariance) = (grid.mean(), grid.covariance());
+        for (axis, filter) in kalman.iter().enumerate() {
+            assert!((mean[axis] - filter.mean).abs() <= mean_tolerance[axis] + 1e-12);
+            assert!((covariance[(axis, axis)] - filter.variance).abs() <= variance_tolerance);
+        }
+        assert!(covariance[(0, 1)].abs() < 1e-12);
+        assert_eq!(covariance[(0, 1)], covariance[(1, 0)]);
+    }
+
+    #[test]
+    fn pushed_mass_keeps_the_mean_of_the_moved_centres() {
+        // Bilinear splitting preserves the first moment: after a rotation by 0.4 rad the
+        // mean is the mass-weighted mean of the rotated centres.
+        let mut grid = blob((1.5, 0.5), (0.5, 0.3));
+        let (cos, sin) = (0.4_f64.cos(), 0.4_f64.sin());
+        let rotate =
+            |p: &SVector<f64, 2>| Vector2::new(cos * p[0] - sin * p[1], sin * p[0] + cos * p[1]);
+        let (x, y) = axes();
+        let mut expected = Vector2::zeros();
+        for iy in 0..100 {
+            for ix in 0..120 {
+                expected +=
+                    rotate(&Vector2::new(x.centre(ix), y.centre(iy))) * grid.mass_at(ix, iy);
+            }
+        }
+        let motion = Mapped {
+            map: rotate,
+            noise: normal(0.1),
+            calls: Cell::new(0),
+        };
+        grid.predict(&motion, &SVector::zeros(), 1.0)
+            .expect("on grid");
+        assert!((grid.mean() - expected).norm() < 1e-9);
+        // The rotated belief is correlated: the x spread now leans toward y.
+        assert!(grid.covariance()[(0, 1)] > 0.01);
+    }
+
+    #[test]
+    fn two_blobs_give_two_modes_and_their_masses() {
+        let (x, y) = axes();
+        let left = blob((-3.0, -2.0), (0.4, 0.4));
+        let right = blob((3.0, 2.0), (0.4, 0.4));
+        let mut masses = [[0.0; 120]; 100];
+        for (iy, row) in masses.iter_mut().enumerate() {
+            for (ix, cell) in row.iter_mut().enumerate() {
+                *cell = 0.7 * left.mass_at(ix, iy) + 0.3 * right.mass_at(ix, iy);
+            }
+        }
+        let grid = Grid2::from_masses(x, y, masses, GridOptions::default()).expect("valid");
+        let empty = Mode {
+            cell: [0, 0],
+            centre: Vector2::zeros(),
+            mass: 0.0,
+        };
+        let mut modes = [empty; 4];
+        assert_eq!(grid.modes(0.2, &mut modes), 2);
+        assert!((modes[0].centre - Vector2::new(-3.0, -2.0)).norm() < H);
+        assert!((modes[1].centre - Vector2::new(3.0, 2.0)).norm() < H);
+        assert_eq!(grid.modes(0.5, &mut modes), 1);
+        // The left blob's tails past the rectangle sit 5 standard deviations out
+        // (upper tail 2.9e-7, standard normal table).
+        let left_mass = grid.probability_in((-6.0, 0.0), (-5.0, 0.0));
+        assert!((left_mass - 0.7).abs() < 1e-6);
+        assert_eq!(grid.masses()[35 * 120 + 20], grid.mass_at(20, 35));
+    }
+
+    #[test]
+    fn impossible_reading_keeps_the_belief_bit_identical() {
+        let mut grid = blob((0.0, 0.0), (0.5, 0.5));
+        let before: [u64; 12_000] = core::array::from_fn(|i| grid.masses()[i].to_bits());
+        let support = grid.support();
+        let reading = ResidualLikelihood(Direct {
+            noise: Noise::Triangle { half_width: 1.0 },
+        });
+        assert_eq!(
+            grid.correct(&reading, &Vector2::new(0.0, 40.0)),
+            Err(CorrectError::ZeroPosterior)
+        );
+        let after: [u64; 12_000] = core::array::from_fn(|i| grid.masses()[i].to_bits());
+        assert_eq!(before, after);
+        assert_eq!(grid.support(), support);
+    }
+
+    #[test]
+    fn support_box_follows_a_narrow_belief() {
+        let (x, y) = axes();
+        let mut grid = Grid2::<f64, 120, 100>::from_density(
+            x,
+            y,
+            Vector2::new(2.0, 1.0),
+            [normal(0.2), normal(0.2)],
+            GridOptions::default(),
+        )
+        .expect("valid prior");
+        let ((x_first, x_last), (y_first, y_last)) = grid.support();
+        assert!(x_last - x_first < 30 && y_last - y_first < 30);
+        let motion = Mapped {
+            map: |p: &SVector<f64, 2>| p + Vector2::new(-1.0, 0.5),
+            noise: normal(0.05),
+            calls: Cell::new(0),
+        };
+        grid.predict(&motion, &SVector::zeros(), 1.0)
+            .expect("on grid");
+        assert!(motion.calls.get() <= 30 * 30);
+        assert!((grid.mean() - Vector2::new(1.0, 1.5)).norm() < 1e-3);
+        let total: f64 = grid.masses().iter().sum();
+        assert!((total - 1.0).abs() < 1e-12);
+    }
+}

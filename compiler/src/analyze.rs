@@ -517,4 +517,56 @@ mod tests {
         assert_eq!(o.sensors, ["wheels", "gyro"]);
         assert!(o.rank < o.states);
     }
+
+    /// Along a scenario: the survey launch reads ranges and bearings to two
+    /// transponders plus compass, log and gyro, so every state is observable at the
+    /// start, half way and at the end; reading only the compass leaves the position
+    /// (both coordinates) and the speed unseen.
+    #[test]
+    fn scenarios_give_operating_points_along_the_motion() {
+        let toml = r#"
+            [[scenario]]
+            name = "launch"
+            spec = "specs/survey_launch.reckon"
+            method = "ukf"
+            duration = "10 s"
+            step = "100 ms"
+            inputs = { accel = "0.1 m/s^2" }
+
+            [[scenario.sensor]]
+            name = "transponder"
+            rate = "1 Hz"
+            args = [{ beacon_east = "200 m", beacon_north = "0 m" }, { beacon_east = "0 m", beacon_north = "200 m" }]
+
+            [[scenario.sensor]]
+            name = "compass"
+            rate = "5 Hz"
+            "#;
+        let project = crate::project::parse_project(toml).expect("valid");
+        let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+        let report = analyze_scenario(&root, &project.scenarios[0]).expect("analysed");
+        let labels: Vec<&str> = report
+            .observability
+            .iter()
+            .map(|o| o.label.as_str())
+            .collect();
+        assert_eq!(labels, ["t = 0 s", "t = 5 s", "t = 10 s"]);
+        assert!(report.observability.iter().all(|o| o.rank == 5), "{report}");
+
+        let mut compass_only = project.scenarios[0].clone();
+        compass_only.sensors.remove(0);
+        let report = analyze_scenario(&root, &compass_only).expect("analysed");
+        let start = &report.observability[0];
+        assert!(start.rank < 5, "{report}");
+        let unseen: Vec<&str> = start
+            .unobservable
+            .iter()
+            .flat_map(|d| d.components.iter().map(|(name, _, _)| name.as_str()))
+            .collect();
+        assert!(
+            unseen.contains(&"east") && unseen.contains(&"north"),
+            "{report}"
+        );
+        assert!(!unseen.contains(&"heading"), "{report}");
+    }
 }

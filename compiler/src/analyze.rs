@@ -332,7 +332,9 @@ pub fn analyze_scenario(
         let input = plan.inputs_at(time);
         if marks.contains(&step) && points.len() < marks.len() {
             points.push(OperatingPoint {
-                label: format!("t = {time} s"),
+                // Rounded to the nanosecond so step multiples print as written (5 s, not
+                // 5.000000000000001 s).
+                label: format!("t = {} s", (time * 1e9).round() / 1e9),
                 state: x.iter().copied().collect(),
                 input: input.clone(),
                 dt: plan.step,

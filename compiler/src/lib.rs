@@ -6,6 +6,7 @@
 //! Stages, in pipeline order: [`syntax`] (text to AST), [`check`] (AST to the checked
 //! [`model`]), `ir` (symbolic expressions and derivatives), back ends.
 
+pub mod analyze;
 pub mod back;
 pub mod build;
 pub mod check;
@@ -17,6 +18,7 @@ pub mod options;
 pub mod project;
 pub mod reference;
 pub mod scaffold;
+pub mod sim;
 pub mod stats;
 pub mod syntax;
 pub mod units;

@@ -10,12 +10,15 @@ use serde::Deserialize;
 
 use crate::diag::{codes, Diagnostic, Span};
 use crate::options::{EstimatorOptions, Integrator, Method, Scalar, UnscentedParams, UpdateForm};
+use crate::sim::Scenario;
 
 /// The parsed project file.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Project {
     /// Estimators to build, in file order.
     pub estimators: Vec<EstimatorEntry>,
+    /// Simulation scenarios (`[[scenario]]` tables), in file order.
+    pub scenarios: Vec<Scenario>,
 }
 
 /// One `[[estimator]]` table.
@@ -36,6 +39,8 @@ pub struct EstimatorEntry {
 struct RawProject {
     #[serde(default)]
     estimator: Vec<toml::Spanned<RawEstimator>>,
+    #[serde(default)]
+    scenario: Vec<toml::Spanned<Scenario>>,
 }
 
 #[derive(Deserialize)]
@@ -89,7 +94,21 @@ pub fn parse_project(text: &str) -> Result<Project, Diagnostic> {
             }
         })
         .collect();
-    Ok(Project { estimators })
+    let scenarios = raw
+        .scenario
+        .into_iter()
+        .map(|spanned| {
+            let span = Span::new(spanned.span().start, spanned.span().end);
+            Scenario {
+                span,
+                ..spanned.into_inner()
+            }
+        })
+        .collect();
+    Ok(Project {
+        estimators,
+        scenarios,
+    })
 }
 
 #[cfg(test)]
@@ -138,6 +157,55 @@ mod tests {
         let span = error.primary_span();
         assert_eq!(&text[span.start..span.end], "\"kalman\"");
         assert!(error.message.contains("ekf"), "{}", error.message);
+    }
+
+    #[test]
+    fn reads_scenarios_next_to_estimators() {
+        let text = r#"
+            [[estimator]]
+            spec = "specs/a.reckon"
+            output = "src/a.rs"
+
+            [[scenario]]
+            name = "cruise"
+            spec = "specs/a.reckon"
+            method = "ukf"
+            duration = "20 s"
+            step = "10 ms"
+            runs = 50
+            seed = 7
+            process_noise_scale = 0.1
+            inputs = { accel = [{ from = "0 s", value = "0.2 m/s^2" }, { from = "5 s", value = 0 }], steer = "2 deg" }
+            truth = { east = "3 m" }
+
+            [[scenario.sensor]]
+            name = "beacon"
+            rate = "2 Hz"
+            args = [{ bx = "10 m", by = "0 m" }, { bx = "0 m", by = "10 m" }]
+            "#;
+        let project = parse_project(text).expect("valid project");
+        assert_eq!(project.estimators.len(), 1);
+        let [scenario] = project.scenarios.as_slice() else {
+            panic!("one scenario expected");
+        };
+        assert_eq!(
+            (scenario.name.as_str(), scenario.runs, scenario.seed),
+            ("cruise", 50, 7)
+        );
+        assert_eq!(scenario.options().method, Method::Ukf);
+        assert_eq!(scenario.process_noise_scale, 0.1);
+        assert_eq!(scenario.sensors[0].name.get_ref(), "beacon");
+        assert!(matches!(
+            scenario.inputs["accel"].get_ref(),
+            crate::sim::InputValue::Schedule(pieces) if pieces.len() == 2
+        ));
+        let table = &text[scenario.span.start..scenario.span.end];
+        assert_eq!(
+            table, "[[scenario]]",
+            "diagnostics about the table point at its header"
+        );
+        let step = &text[scenario.step.span()];
+        assert_eq!(step, "\"10 ms\"");
     }
 
     #[test]

@@ -74,6 +74,51 @@ pub fn check_file(file: &ast::File) -> CheckOutput {
     })
 }
 
+/// Evaluates a quantity written outside a spec (`"10 ms"`, `"50 Hz"`, `"2 m / 3"`):
+/// the spec language's constant expressions with units, so project files read numbers
+/// exactly as specs do. Returns the value in SI and its dimension; diagnostic spans
+/// point into `text`.
+pub fn quantity(text: &str) -> Result<(f64, Dimension), Vec<Diagnostic>> {
+    const PREFIX: &str = "const quantity = ";
+    let source = format!("{PREFIX}{text}");
+    let (value, mut diagnostics) = syntax::on_big_stack(|| {
+        let (file, mut diagnostics) = syntax::parse_here(&source);
+        let value = file.and_then(|file| match file.items.as_slice() {
+            [ast::Item::Const(decl)] => {
+                let mut checker = Checker::default();
+                let value = checker.constant(&decl.value).ok();
+                diagnostics.append(&mut checker.diagnostics);
+                value
+            }
+            _ => None,
+        });
+        (value, diagnostics)
+    });
+    let shift = |span: Span| {
+        Span::new(
+            span.start.saturating_sub(PREFIX.len()).min(text.len()),
+            span.end.saturating_sub(PREFIX.len()).min(text.len()),
+        )
+    };
+    for diagnostic in &mut diagnostics {
+        for label in &mut diagnostic.labels {
+            label.span = shift(label.span);
+        }
+    }
+    match value {
+        Some(value) if !diagnostics.iter().any(Diagnostic::is_error) => Ok(value),
+        _ if diagnostics.iter().any(Diagnostic::is_error) => Err(diagnostics),
+        _ => Err(vec![Diagnostic::new(
+            codes::NOT_CONSTANT,
+            Span::new(0, text.len()),
+            format!("`{text}` is not a single quantity"),
+        )
+        .with_hint(
+            "write a number with its unit, such as \"10 ms\" or \"0.2 m/s^2\"",
+        )]),
+    }
+}
+
 fn finish(model: Option<Model>, mut diagnostics: Vec<Diagnostic>) -> CheckOutput {
     diagnostics.sort_by_key(|d| d.primary_span().start);
     let failed = diagnostics.iter().any(Diagnostic::is_error);
@@ -139,6 +184,37 @@ impl Checker {
     /// True when `name` is declared or built in (used to explain unit mistakes).
     fn is_declared(&self, name: &str) -> bool {
         self.globals.contains_key(name) || names::is_reserved(name)
+    }
+}
+
+#[cfg(test)]
+mod quantity_tests {
+    use super::*;
+    use crate::units::{Base, Dimension};
+
+    /// Unit factors: NIST SP 811 (2008), Appendix B.8 (ft = 0.3048 m, exact; kn =
+    /// 1852/3600 m/s).
+    #[test]
+    fn quantities_read_with_units_in_si() {
+        let (value, dimension) = quantity("10 ms").expect("valid");
+        assert!((value - 0.01).abs() < 1e-15);
+        assert_eq!(dimension, Dimension::base(Base::Time));
+        let (value, _) = quantity("3 ft").expect("valid");
+        assert!((value - 0.9144).abs() < 1e-15);
+        let (value, _) = quantity("36 kn").expect("valid");
+        assert!((value - 18.52).abs() < 1e-12);
+        let (value, dimension) = quantity("0.5").expect("valid");
+        assert_eq!((value, dimension.is_dimensionless()), (0.5, true));
+    }
+
+    #[test]
+    fn bad_quantities_point_into_the_text() {
+        let text = "3 furlongs";
+        let errors = quantity(text).expect_err("unknown unit");
+        let span = errors[0].primary_span();
+        assert_eq!(&text[span.start..span.end], "furlongs");
+        let errors = quantity("1 m state { x : m }").expect_err("not one quantity");
+        assert!(errors.iter().any(Diagnostic::is_error));
     }
 }
 

@@ -176,6 +176,18 @@ codes! {
         "The sigma points of `ukf` need `alpha > 0` and `alpha^2 (n + kappa) > 0` for a state of\ndimension n; otherwise their weights are undefined:\n\n    [[estimator]]\n    method = \"ukf\"\n    unscented = { alpha = 1.0, beta = 2.0, kappa = 0.0 }";
     PROJECT_FILE_INVALID = "E0701", Error, "the project file is not valid",
         "`reckon.toml` could not be read: a key is unknown, a value has the wrong type, or a\nrequired key is missing. Each `[[estimator]]` table needs `spec` and `output`:\n\n    [[estimator]]\n    spec = \"specs/rail_cart.reckon\"\n    output = \"src/rail_cart.rs\"\n    method = \"ekf\"      # kf, ekf, ukf, grid, particle\n    scalar = \"f32\"      # f32 or f64\n";
+    SCENARIO_QUANTITY = "E0711", Error, "a scenario quantity is not valid",
+        "A `[[scenario]]` value is a quantity with a unit, written as a string and read\nlike a number in a spec: a duration or step in time units, a rate in Hz, an input,\nargument or truth value in the dimension the spec declares for it:\n\n    duration = \"20 s\"\n    step = \"10 ms\"\n    [[scenario.sensor]]\n    name = \"laser\"\n    rate = \"20 Hz\"";
+    SCENARIO_UNKNOWN_NAME = "E0712", Error, "a scenario names something the spec does not have",
+        "Inputs, initial truth values, sensors and sensor arguments of a scenario are named\nas in the spec. Check the spelling against the spec's `input`, `state` and `sensor`\nblocks.";
+    SCENARIO_MISSING_VALUE = "E0713", Error, "a scenario leaves a value out",
+        "Every input of the spec needs a value (a constant or a schedule), and every reading\nof a sensor with arguments needs each argument:\n\n    [scenario.inputs]\n    accel = [{ from = \"0 s\", value = \"0.2 m/s^2\" }, { from = \"5 s\", value = \"0 m/s^2\" }]\n    [[scenario.sensor]]\n    name = \"transponder\"\n    rate = \"1 Hz\"\n    args = [{ beacon_east = \"100 m\", beacon_north = \"0 m\" }]";
+    SCENARIO_SPEC_UNREADABLE = "E0714", Error, "the scenario's spec cannot be read",
+        "The `spec` path of a `[[scenario]]` is relative to the folder of `reckon.toml`; the\nfile must exist and be readable.";
+    SCENARIO_METHOD = "E0715", Error, "the simulator cannot run this method",
+        "The simulator runs the Kalman methods (`kf`, `ekf`, `ukf`) through the runtime. Grid\nand particle filters are not simulated yet; choose a Kalman method for the scenario.";
+    SCENARIO_NO_INITIAL_BELIEF = "E0716", Error, "a simulated state has no initial belief",
+        "The filter starts from the spec's `initial` block, and the truth is drawn from it\nunless the scenario fixes it. A state without an initial belief cannot start a filter:\nadd it to the spec's `initial` block.";
     UNOBSERVED_STATE = "W0801", Warning, "state never observed",
         "No sensor reading depends on this state, directly or through the motion of a state\nthat is read: the filter can only predict it, and its uncertainty grows without\nbound. (This is a structural test; the IR stage runs a full observability test.)\n\nExample:\n    state { x : m  drift : m/s }\n    sensor s { r : m = x ... }\n    // and drift appears in no equation that reaches x";
     BARE_ANGLE = "W0802", Warning, "bare number used as an angle",

@@ -9,7 +9,7 @@
 //!
 //! Output is deterministic: everything is emitted in declaration or index order.
 
-mod checks;
+pub(crate) mod checks;
 mod kernels;
 mod models;
 mod module;

@@ -3,15 +3,15 @@
 //! `--check` compares instead of writing, for CI.
 
 use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use reckon::back::output::{self, WriteOutcome};
 use reckon::back::rust;
 use reckon::diag::render;
 use reckon::options::EstimatorOptions;
-use reckon::project;
 
 use super::options::{IntegratorArg, MethodArg, ScalarArg, UpdateArg};
+use super::project_file;
 use super::{EXIT_ERRORS, EXIT_OK, EXIT_USAGE};
 
 #[derive(clap::Args)]
@@ -80,22 +80,14 @@ fn jobs(args: &Args) -> Result<Vec<Job>, i32> {
             options,
         }]);
     }
-    let name = args.project.display().to_string();
-    let text = std::fs::read_to_string(&args.project).map_err(|error| {
-        eprintln!("error: cannot read `{name}`: {error}");
-        eprintln!("       give a spec (`reckon build SPEC`) or a project file (`--project FILE`)");
-        EXIT_USAGE
-    })?;
-    let parsed = project::parse_project(&text).map_err(|diagnostic| {
-        eprint!("{}", render::human(&name, &text, &[diagnostic]));
-        EXIT_ERRORS
-    })?;
-    if parsed.estimators.is_empty() {
-        eprintln!("error: `{name}` lists no [[estimator]]");
+    let loaded = project_file::load(&args.project)?;
+    if loaded.project.estimators.is_empty() {
+        eprintln!("error: `{}` lists no [[estimator]]", loaded.name);
         return Err(EXIT_ERRORS);
     }
-    let folder = args.project.parent().unwrap_or(Path::new(""));
-    Ok(parsed
+    let folder = &loaded.folder;
+    Ok(loaded
+        .project
         .estimators
         .into_iter()
         .map(|entry| Job {

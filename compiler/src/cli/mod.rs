@@ -4,6 +4,7 @@
 //! problem. A new subcommand is a new variant of [`Command`] plus a module with an
 //! `Args` struct and a `run` function.
 
+mod analyze;
 mod build;
 mod check;
 mod dump;
@@ -11,6 +12,8 @@ mod explain;
 mod fmt;
 mod new;
 mod options;
+mod project_file;
+mod sim;
 
 use clap::{Parser, Subcommand};
 
@@ -41,6 +44,10 @@ enum Command {
     Build(build::Args),
     /// Print what reckon derived from a spec: the IR with Jacobians and discretisation.
     Dump(dump::Args),
+    /// Monte Carlo simulation of reckon.toml scenarios: NEES/NIS consistency, plots.
+    Sim(sim::Args),
+    /// Observability (with unobservable directions named), linearity, sparsity, op counts.
+    Analyze(analyze::Args),
     /// Explain a diagnostic code, with an example.
     Explain(explain::Args),
     /// Lay specs out canonically (comments kept); --check for CI.
@@ -69,6 +76,8 @@ pub fn run() -> i32 {
         Command::Check(args) => check::run(&args),
         Command::Build(args) => build::run(&args),
         Command::Dump(args) => dump::run(&args),
+        Command::Sim(args) => sim::run(&args),
+        Command::Analyze(args) => analyze::run(&args),
         Command::Explain(args) => explain::run(&args),
         Command::Fmt(args) => fmt::run(&args),
         Command::New(args) => new::run(&args),

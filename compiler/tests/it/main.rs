@@ -3,5 +3,7 @@
 
 mod cli;
 mod docs;
+mod invariants;
+mod robust;
 mod specs;
 mod ui;

@@ -63,23 +63,23 @@ pub fn array<T: Scalar, const N: usize>(values: &[f64]) -> [T; N] {
 /// Implements [`Filter`] for a generated module; the sensor list maps each sensor
 /// index to its correction method, reading type and argument names.
 macro_rules! filter {
-    ($name:ident, $module:path, $t:ty, {
+    ($name:ident, $module:ident, $t:ty, {
         $($index:literal => $method:ident($reading:ident $(, $arg:ident)*)),* $(,)?
     }) => {
         /// The generated module behind [`Filter`].
-        pub struct $name({ use $module as m; m::Estimator });
+        pub struct $name(reckon_tests::$module::Estimator);
 
         impl $name {
             /// The estimator from the spec's `initial` block.
             pub fn boxed() -> Box<dyn Filter> {
-                use $module as m;
+                use reckon_tests::$module as m;
                 Box::new($name(m::Estimator::new().expect("the spec's initial block is valid")))
             }
         }
 
         impl Filter for $name {
             fn predict(&mut self, input: &[f64], dt: f64) -> Result<(), String> {
-                use $module as m;
+                use reckon_tests::$module as m;
                 self.0
                     .predict(&m::Input::from_array(array(input)), <$t>::from_f64(dt))
                     .map_err(|e| format!("{e:?}"))
@@ -87,7 +87,7 @@ macro_rules! filter {
 
             fn correct(&mut self, sensor: usize, reading: &[f64], args: &[f64])
                 -> Result<Vec<f64>, String> {
-                use $module as m;
+                use reckon_tests::$module as m;
                 match sensor {
                     $($index => {
                         let [$($arg),*]: [$t; { let names: &[&str] = &[$(stringify!($arg)),*]; names.len() }] = array(args);
@@ -126,82 +126,82 @@ macro_rules! filter {
     };
 }
 
-filter!(RailCartEkf32, reckon_tests::rail_cart_ekf_f32, f32, {
+filter!(RailCartEkf32, rail_cart_ekf_f32, f32, {
     0 => correct_laser(LaserReading),
     1 => correct_encoder(EncoderReading),
 });
-filter!(RailCartEkf64, reckon_tests::rail_cart_ekf_f64, f64, {
+filter!(RailCartEkf64, rail_cart_ekf_f64, f64, {
     0 => correct_laser(LaserReading),
     1 => correct_encoder(EncoderReading),
 });
-filter!(RailCartKf64, reckon_tests::rail_cart_kf_f64, f64, {
+filter!(RailCartKf64, rail_cart_kf_f64, f64, {
     0 => correct_laser(LaserReading),
     1 => correct_encoder(EncoderReading),
 });
-filter!(RailCartUkf64, reckon_tests::rail_cart_ukf_f64, f64, {
+filter!(RailCartUkf64, rail_cart_ukf_f64, f64, {
     0 => correct_laser(LaserReading),
     1 => correct_encoder(EncoderReading),
 });
-filter!(CanalFerryEkf32, reckon_tests::canal_ferry_ekf_f32, f32, {
+filter!(CanalFerryEkf32, canal_ferry_ekf_f32, f32, {
     0 => correct_sog(SogReading),
     1 => correct_lidar(LidarReading),
 });
-filter!(CanalFerryEkf64, reckon_tests::canal_ferry_ekf_f64, f64, {
+filter!(CanalFerryEkf64, canal_ferry_ekf_f64, f64, {
     0 => correct_sog(SogReading),
     1 => correct_lidar(LidarReading),
 });
-filter!(CanalFerryKf64, reckon_tests::canal_ferry_kf_f64, f64, {
+filter!(CanalFerryKf64, canal_ferry_kf_f64, f64, {
     0 => correct_sog(SogReading),
     1 => correct_lidar(LidarReading),
 });
-filter!(CanalFerryUkf64, reckon_tests::canal_ferry_ukf_f64, f64, {
+filter!(CanalFerryUkf64, canal_ferry_ukf_f64, f64, {
     0 => correct_sog(SogReading),
     1 => correct_lidar(LidarReading),
 });
-filter!(GoodsLiftEkf32, reckon_tests::goods_lift_ekf_f32, f32, {
+filter!(GoodsLiftEkf32, goods_lift_ekf_f32, f32, {
     0 => correct_barometer(BarometerReading),
     1 => correct_pit_laser(PitLaserReading),
 });
-filter!(GoodsLiftEkf64, reckon_tests::goods_lift_ekf_f64, f64, {
+filter!(GoodsLiftEkf64, goods_lift_ekf_f64, f64, {
     0 => correct_barometer(BarometerReading),
     1 => correct_pit_laser(PitLaserReading),
 });
-filter!(GoodsLiftKf64, reckon_tests::goods_lift_kf_f64, f64, {
+filter!(GoodsLiftKf64, goods_lift_kf_f64, f64, {
     0 => correct_barometer(BarometerReading),
     1 => correct_pit_laser(PitLaserReading),
 });
-filter!(GoodsLiftUkf64, reckon_tests::goods_lift_ukf_f64, f64, {
+filter!(GoodsLiftUkf64, goods_lift_ukf_f64, f64, {
     0 => correct_barometer(BarometerReading),
     1 => correct_pit_laser(PitLaserReading),
 });
-filter!(PalletRobotEkf32, reckon_tests::pallet_robot_ekf_f32, f32, {
+filter!(PalletRobotEkf32, pallet_robot_ekf_f32, f32, {
     0 => correct_wheels(WheelsReading),
     1 => correct_gyro(GyroReading),
     2 => correct_floor_tag(FloorTagReading, tag_east, tag_north),
 });
-filter!(PalletRobotEkf64, reckon_tests::pallet_robot_ekf_f64, f64, {
+filter!(PalletRobotEkf64, pallet_robot_ekf_f64, f64, {
     0 => correct_wheels(WheelsReading),
     1 => correct_gyro(GyroReading),
     2 => correct_floor_tag(FloorTagReading, tag_east, tag_north),
 });
-filter!(PalletRobotUkf64, reckon_tests::pallet_robot_ukf_f64, f64, {
+filter!(PalletRobotUkf64, pallet_robot_ukf_f64, f64, {
     0 => correct_wheels(WheelsReading),
     1 => correct_gyro(GyroReading),
     2 => correct_floor_tag(FloorTagReading, tag_east, tag_north),
 });
-filter!(SurveyLaunchEkf32, reckon_tests::survey_launch_ekf_f32, f32, {
+filter!(SurveyLaunchEkf32, survey_launch_ekf_f32, f32, {
     0 => correct_transponder(TransponderReading, beacon_east, beacon_north),
     1 => correct_compass(CompassReading),
     2 => correct_log(LogReading),
     3 => correct_gyro(GyroReading),
 });
-filter!(SurveyLaunchEkf64, reckon_tests::survey_launch_ekf_f64, f64, {
+filter!(SurveyLaunchEkf64, survey_launch_ekf_f64, f64, {
     0 => correct_transponder(TransponderReading, beacon_east, beacon_north),
     1 => correct_compass(CompassReading),
     2 => correct_log(LogReading),
     3 => correct_gyro(GyroReading),
 });
-filter!(SurveyLaunchUkf64, reckon_tests::survey_launch_ukf_f64, f64, {
+filter!(SurveyLaunchUkf64, survey_launch_ukf_f64, f64, {
     0 => correct_transponder(TransponderReading, beacon_east, beacon_north),
     1 => correct_compass(CompassReading),
     2 => correct_log(LogReading),

@@ -38,8 +38,18 @@ fn inject_faults(scenario: &Scenario, filter: &mut dyn Filter) {
     scenario.drive(filter, 0..WARM_UP);
     let step = scenario.step(WARM_UP);
     // dt = 1e300: finite, but every model's covariance overflows over such a step.
-    for dt in [0.0, -0.0, -scenario.dt, f64::NAN, f64::INFINITY, f64::NEG_INFINITY, 1e300] {
-        assert_refused(&format!("{name}: dt {dt}"), filter, |f| f.predict(&step.input, dt));
+    for dt in [
+        0.0,
+        -0.0,
+        -scenario.dt,
+        f64::NAN,
+        f64::INFINITY,
+        f64::NEG_INFINITY,
+        1e300,
+    ] {
+        assert_refused(&format!("{name}: dt {dt}"), filter, |f| {
+            f.predict(&step.input, dt)
+        });
     }
     for i in 0..step.input.len() {
         for bad in NON_FINITE {
@@ -82,7 +92,10 @@ fn inject_faults(scenario: &Scenario, filter: &mut dyn Filter) {
         let reason = assert_refused(&format!("{name}: 10-sigma outlier"), filter, |f| {
             f.correct(sensor, &outlier, args).map(drop)
         });
-        assert!(reason.starts_with("Gated"), "{name}: outlier refused for {reason}");
+        assert!(
+            reason.starts_with("Gated"),
+            "{name}: outlier refused for {reason}"
+        );
     }
     // Still healthy: the mission goes on.
     scenario.drive(filter, WARM_UP..WARM_UP + 10);

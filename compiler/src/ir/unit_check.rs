@@ -78,7 +78,11 @@ fn scale_distribution(d: &mut Distribution, f: f64) {
 /// the limits of `f64` that scaling it is not exact, so the comparison cannot be made.
 pub(crate) fn scaled_model(model: &Model) -> Option<Model> {
     let mut m = model.clone();
-    let mut exact = m.motion.equations.iter_mut().fold(true, |exact, e| scale_expr(e) & exact);
+    let mut exact = m
+        .motion
+        .equations
+        .iter_mut()
+        .fold(true, |exact, e| scale_expr(e) & exact);
     for c in m.sensors.iter_mut().flat_map(|s| s.components.iter_mut()) {
         exact &= scale_expr(&mut c.expr);
     }

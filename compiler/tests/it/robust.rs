@@ -40,20 +40,69 @@ impl Rng {
 
 /// Units a unit token may be swapped for, including ones of other dimensions.
 const UNITS: &[&str] = &[
-    "m", "s", "kg", "rad", "deg", "m/s", "m/s^2", "ft", "mbar", "rpm", "Hz", "sqrt(Hz)", "K",
-    "Pa", "kn", "mm", "deg/s", "1", "m^-1", "s^2",
+    "m", "s", "kg", "rad", "deg", "m/s", "m/s^2", "ft", "mbar", "rpm", "Hz", "sqrt(Hz)", "K", "Pa",
+    "kn", "mm", "deg/s", "1", "m^-1", "s^2",
 ];
 /// Number texts at and beyond the edges of `f64`, and ones the grammar may refuse.
 const NUMBERS: &[&str] = &[
-    "1e308", "1e-308", "1e309", "-1e308", "0", "-0", "0.0", "1e-320", "NaN", "nan", "inf",
-    "-inf", "18446744073709551616", "0.00000000000000000000001", "1e", "1.", ".5", "1e+",
-    "99999999999999999999999999999999999999", "5e-324",
+    "1e308",
+    "1e-308",
+    "1e309",
+    "-1e308",
+    "0",
+    "-0",
+    "0.0",
+    "1e-320",
+    "NaN",
+    "nan",
+    "inf",
+    "-inf",
+    "18446744073709551616",
+    "0.00000000000000000000001",
+    "1e",
+    "1.",
+    ".5",
+    "1e+",
+    "99999999999999999999999999999999999999",
+    "5e-324",
 ];
 /// Tokens of the language's structure, inserted where they do not belong.
 const STRUCTURE: &[&str] = &[
-    "state", "input", "motion", "continuous", "discrete", "process", "sensor", "initial",
-    "model", "const", "{", "}", "(", ")", "~", "=", ":", ",", "'", "^", "%", "wrap", "dt",
-    "normal(", "white(", "gate", "noise", "*", "/", "-", "+", "\n", "///", "//", "\u{e9}",
+    "state",
+    "input",
+    "motion",
+    "continuous",
+    "discrete",
+    "process",
+    "sensor",
+    "initial",
+    "model",
+    "const",
+    "{",
+    "}",
+    "(",
+    ")",
+    "~",
+    "=",
+    ":",
+    ",",
+    "'",
+    "^",
+    "%",
+    "wrap",
+    "dt",
+    "normal(",
+    "white(",
+    "gate",
+    "noise",
+    "*",
+    "/",
+    "-",
+    "+",
+    "\n",
+    "///",
+    "//",
+    "\u{e9}",
 ];
 
 /// Splits text into tokens: identifier/number runs, whitespace runs, single others.
@@ -216,7 +265,9 @@ fn mutated_specs_keep_the_pipeline_invariants() {
             continue;
         }
         if let Err(message) = survives(&text) {
-            failures.push(format!("case {case}: {message}\n--- input ---\n{text}\n---"));
+            failures.push(format!(
+                "case {case}: {message}\n--- input ---\n{text}\n---"
+            ));
             if failures.len() >= 3 {
                 break;
             }

@@ -17,11 +17,12 @@ const LONG_STEPS: usize = 10_000_000;
 
 /// Largest allowed gap between the `f32` and `f64` estimates, in standard deviations
 /// of the `f64` estimate. Both filters forget old errors at the rate their gains set,
-/// so the `f32` round-off (relative 6e-8 per operation on values up to ~100 in SI)
-/// does not accumulate; what remains is a few roundings of the largest state
-/// magnitude against the smallest standard deviation. The measured worst case over
-/// the long run is stated in `fuzz/README.md`'s sibling report; this bound leaves a
-/// margin of about ten over it.
+/// so `f32` round-off (relative 6e-8 per operation) should not accumulate; what
+/// remains is a few roundings of the largest state magnitude (~100 m here) against
+/// the smallest standard deviation (~mm): of order 1e-3 sigma. Measured worst cases
+/// at 10^5 steps: 1.5e-2 sigma (pallet_robot, east), 2e-3 or less for the others.
+/// Over 10^7 steps pallet_robot's gap keeps growing (1.26 sigma, east), so the long
+/// run fails for it: an open finding, not a tolerance to widen.
 const DRIFT_SIGMAS: f64 = 0.05;
 
 /// Relative asymmetry allowed in a committed covariance.
@@ -315,8 +316,9 @@ fn assert_sound(name: &str, k: usize, filter: &dyn Filter) {
     );
 }
 
-/// The largest gap between the two estimates, in standard deviations of `double`.
-fn drift(scenario: &Scenario, single: &dyn Filter, double: &dyn Filter) -> f64 {
+/// The largest gap between the two estimates, in standard deviations of `double`,
+/// and the state component where it is.
+fn drift(scenario: &Scenario, single: &dyn Filter, double: &dyn Filter) -> (f64, usize) {
     let (a, b) = (single.state(), double.state());
     let p = double.covariance();
     let n = b.len();
@@ -328,36 +330,46 @@ fn drift(scenario: &Scenario, single: &dyn Filter, double: &dyn Filter) -> f64 {
             } else {
                 gap
             };
-            gap.abs() / p[i * n + i].sqrt()
+            (gap.abs() / p[i * n + i].sqrt(), i)
         })
-        .fold(0.0, f64::max)
+        .fold((0.0, 0), |a, b| if b.0 > a.0 { b } else { a })
 }
 
 #[test]
 fn estimators_endure_long_missions() {
     let long = std::env::var_os("RECKON_LONG_TESTS").is_some_and(|v| v == "1");
     let steps = if long { LONG_STEPS } else { STEPS };
+    // Every mission runs to its end, so one report shows all the drifts.
+    let mut drifted = Vec::new();
     for scenario in scenarios() {
         let mut single = (scenario.single)();
         let mut double = (scenario.double)();
-        let mut worst = 0.0_f64;
+        let mut worst = (0.0_f64, 0, 0);
         for k in 0..steps {
             let step = scenario.step(k);
             scenario.run_step(single.as_mut(), &step, k);
             scenario.run_step(double.as_mut(), &step, k);
             assert_sound(scenario.name, k, single.as_ref());
             assert_sound(scenario.name, k, double.as_ref());
-            worst = worst.max(drift(&scenario, single.as_ref(), double.as_ref()));
+            let (gap, component) = drift(&scenario, single.as_ref(), double.as_ref());
+            if gap > worst.0 {
+                worst = (gap, component, k);
+            }
         }
         println!(
-            "{}: {steps} steps, worst f32/f64 gap {worst:.2e} sigma; f32 health {:?}",
+            "{}: {steps} steps, worst f32/f64 gap {:.2e} sigma (state {}, step {}); f32 health {:?}",
             scenario.name,
+            worst.0,
+            worst.1,
+            worst.2,
             single.health()
         );
-        assert!(
-            worst <= DRIFT_SIGMAS,
-            "{}: f32 drifted {worst} sigma from f64",
-            scenario.name
-        );
+        if worst.0 > DRIFT_SIGMAS {
+            drifted.push(format!("{}: {:.3} sigma", scenario.name, worst.0));
+        }
     }
+    assert!(
+        drifted.is_empty(),
+        "f32 drifted from f64 beyond {DRIFT_SIGMAS} sigma: {drifted:?}"
+    );
 }

@@ -1,4 +1,7 @@
 //! End-to-end and external-reference tests.
+mod drive;
+mod endurance;
+mod faults;
 mod generated;
 mod ir_reference;
 mod runtime_reference;

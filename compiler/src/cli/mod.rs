@@ -1,7 +1,8 @@
 //! Command-line interface: the subcommand enum and the exit-code convention.
 //!
 //! Exit codes: 0 success (warnings allowed), 1 the input has errors, 2 usage or I/O
-//! problem. A new subcommand is a new variant of [`Command`] plus a module with an
+//! problem, 101 internal error (a panic caught in `main`: a bug in reckon; the same
+//! status Rust gives an uncaught panic, so wrappers treat both alike). A new subcommand is a new variant of [`Command`] plus a module with an
 //! `Args` struct and a `run` function.
 
 mod analyze;
@@ -23,6 +24,8 @@ pub const EXIT_OK: i32 = 0;
 pub const EXIT_ERRORS: i32 = 1;
 /// Exit code: bad usage or an I/O problem.
 pub const EXIT_USAGE: i32 = 2;
+/// Exit code: reckon itself failed (a caught panic).
+pub const EXIT_INTERNAL: i32 = 101;
 
 #[derive(Parser)]
 #[command(

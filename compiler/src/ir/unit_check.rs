@@ -40,16 +40,20 @@ fn factor(d: Dimension) -> f64 {
         .product()
 }
 
-fn scale_expr(e: &mut Expr) {
+/// Scales the numbers of `e`; false if one of them left the normal `f64` range, where
+/// scaling by a power of four is no longer exact.
+fn scale_expr(e: &mut Expr) -> bool {
     match &mut e.kind {
-        ExprKind::Number(v) => *v *= factor(e.dimension),
-        ExprKind::Neg(a) => scale_expr(a),
-        ExprKind::Binary(_, a, b) => {
-            scale_expr(a);
-            scale_expr(b);
+        ExprKind::Number(v) => {
+            let scaled = *v * factor(e.dimension);
+            let exact = *v == 0.0 || scaled.is_normal();
+            *v = scaled;
+            exact
         }
-        ExprKind::Call(_, args) => args.iter_mut().for_each(scale_expr),
-        ExprKind::State(_) | ExprKind::Input(_) | ExprKind::Arg(_) | ExprKind::Dt => {}
+        ExprKind::Neg(a) => scale_expr(a),
+        ExprKind::Binary(_, a, b) => scale_expr(a) & scale_expr(b),
+        ExprKind::Call(_, args) => args.iter_mut().fold(true, |exact, a| scale_expr(a) & exact),
+        ExprKind::State(_) | ExprKind::Input(_) | ExprKind::Arg(_) | ExprKind::Dt => true,
     }
 }
 
@@ -70,12 +74,17 @@ fn scale_distribution(d: &mut Distribution, f: f64) {
     }
 }
 
-/// The same model in scaled units.
-pub(crate) fn scaled_model(model: &Model) -> Model {
+/// The same model in scaled units; `None` when a constant of the spec is so close to
+/// the limits of `f64` that scaling it is not exact, so the comparison cannot be made.
+pub(crate) fn scaled_model(model: &Model) -> Option<Model> {
     let mut m = model.clone();
-    m.motion.equations.iter_mut().for_each(scale_expr);
+    let mut exact = m
+        .motion
+        .equations
+        .iter_mut()
+        .fold(true, |exact, e| scale_expr(e) & exact);
     for c in m.sensors.iter_mut().flat_map(|s| s.components.iter_mut()) {
-        scale_expr(&mut c.expr);
+        exact &= scale_expr(&mut c.expr);
     }
     let time = factor(Dimension::base(Base::Time));
     for noise in &mut m.process_noise {
@@ -94,7 +103,7 @@ pub(crate) fn scaled_model(model: &Model) -> Model {
             scale_distribution(d, f);
         }
     }
-    m
+    exact.then_some(m)
 }
 
 /// A point to evaluate at: varied, moderate values (a check needs no randomness).

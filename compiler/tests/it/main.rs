@@ -3,6 +3,8 @@
 
 mod cli;
 mod docs;
+mod invariants;
+mod robust;
 mod specs;
 mod ui;
 

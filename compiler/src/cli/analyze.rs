@@ -8,7 +8,6 @@ use reckon::analyze;
 use reckon::check::quantity;
 use reckon::diag::render;
 use reckon::options::EstimatorOptions;
-use reckon::sim::SimError;
 use reckon::units::{Base, Dimension};
 
 use super::options::IntegratorArg;
@@ -102,23 +101,6 @@ fn analyze_scenario(args: &Args, name: &str) -> i32 {
             print!("{report}");
             EXIT_OK
         }
-        Err(SimError::Scenario(diagnostics)) => {
-            eprint!(
-                "{}",
-                render::human(&loaded.name, &loaded.text, &diagnostics)
-            );
-            EXIT_ERRORS
-        }
-        Err(SimError::Spec {
-            path,
-            text,
-            diagnostics,
-        }) => {
-            eprint!(
-                "{}",
-                render::human(&path.display().to_string(), &text, &diagnostics)
-            );
-            EXIT_ERRORS
-        }
+        Err(error) => project_file::report_sim_error(&loaded, error),
     }
 }

@@ -5,6 +5,7 @@ use std::path::{Path, PathBuf};
 
 use reckon::diag::render;
 use reckon::project::{self, Project};
+use reckon::sim::SimError;
 
 use super::{EXIT_ERRORS, EXIT_USAGE};
 
@@ -34,4 +35,28 @@ pub fn load(path: &Path) -> Result<Loaded, i32> {
         name,
         text,
     })
+}
+
+/// Prints a scenario's errors against the file they point into (the project file or
+/// the scenario's spec); returns the exit code.
+pub fn report_sim_error(loaded: &Loaded, error: SimError) -> i32 {
+    match error {
+        SimError::Scenario(diagnostics) => {
+            eprint!(
+                "{}",
+                render::human(&loaded.name, &loaded.text, &diagnostics)
+            );
+        }
+        SimError::Spec {
+            path,
+            text,
+            diagnostics,
+        } => {
+            eprint!(
+                "{}",
+                render::human(&path.display().to_string(), &text, &diagnostics)
+            );
+        }
+    }
+    EXIT_ERRORS
 }

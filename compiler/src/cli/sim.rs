@@ -6,10 +6,10 @@ use std::path::PathBuf;
 use std::time::{Duration, Instant};
 
 use reckon::diag::render;
-use reckon::sim::{self, SimError};
+use reckon::sim;
 
 use super::project_file;
-use super::{EXIT_ERRORS, EXIT_OK, EXIT_USAGE};
+use super::{EXIT_OK, EXIT_USAGE};
 
 #[derive(clap::Args)]
 #[command(
@@ -67,24 +67,8 @@ pub fn run(args: &Args) -> i32 {
         bar.finish();
         let report = match result {
             Ok(report) => report,
-            Err(SimError::Scenario(diagnostics)) => {
-                eprint!(
-                    "{}",
-                    render::human(&loaded.name, &loaded.text, &diagnostics)
-                );
-                exit = exit.max(EXIT_ERRORS);
-                continue;
-            }
-            Err(SimError::Spec {
-                path,
-                text,
-                diagnostics,
-            }) => {
-                eprint!(
-                    "{}",
-                    render::human(&path.display().to_string(), &text, &diagnostics)
-                );
-                exit = exit.max(EXIT_ERRORS);
+            Err(error) => {
+                exit = exit.max(project_file::report_sim_error(&loaded, error));
                 continue;
             }
         };

@@ -206,6 +206,18 @@ impl Builder {
         self
     }
 
+    /// Grid method: cells per axis for states whose range gives no cell size.
+    pub fn grid_cells(mut self, cells: u32) -> Builder {
+        self.options.grid_cells = Some(cells);
+        self
+    }
+
+    /// Particle method: the number of particles.
+    pub fn particles(mut self, particles: u32) -> Builder {
+        self.options.particles = Some(particles);
+        self
+    }
+
     /// Output folder for specs given to [`Builder::compile`] (default: `$OUT_DIR`).
     pub fn out_dir(mut self, out_dir: impl Into<PathBuf>) -> Builder {
         self.out_dir = Some(out_dir.into());

@@ -168,4 +168,33 @@ pub struct EstimatorOptions {
     pub integrator: Integrator,
     /// Unscented scaling (UKF only).
     pub unscented: UnscentedParams,
+    /// Grid only: cells per axis for states whose range gives no cell size (`by`).
+    pub grid_cells: Option<u32>,
+    /// Particle only: the number of particles (default [`DEFAULT_PARTICLES`]).
+    pub particles: Option<u32>,
+    /// Particle only: resample when the effective sample size falls below this
+    /// fraction of the particle count (default [`DEFAULT_RESAMPLE_BELOW`]).
+    pub resample_below: Option<f64>,
+}
+
+/// Particles when the options give no count. Common practice, no source: enough for
+/// the low-dimensional, multimodal problems a particle filter is chosen for, small
+/// enough for a microcontroller's RAM at a few states (1000 x 4 states x 4 bytes).
+pub const DEFAULT_PARTICLES: u32 = 1000;
+
+/// Resampling threshold when the options give none: half of the particle count, the
+/// usual compromise between weight degeneracy and sample impoverishment (common
+/// practice, no source).
+pub const DEFAULT_RESAMPLE_BELOW: f64 = 0.5;
+
+impl EstimatorOptions {
+    /// The particle count in effect.
+    pub fn particle_count(&self) -> u32 {
+        self.particles.unwrap_or(DEFAULT_PARTICLES)
+    }
+
+    /// The resampling threshold in effect.
+    pub fn resample_threshold(&self) -> f64 {
+        self.resample_below.unwrap_or(DEFAULT_RESAMPLE_BELOW)
+    }
 }

@@ -58,6 +58,12 @@ struct RawEstimator {
     integrator: Integrator,
     #[serde(default)]
     unscented: UnscentedParams,
+    #[serde(default)]
+    cells: Option<u32>,
+    #[serde(default)]
+    particles: Option<u32>,
+    #[serde(default)]
+    resample_below: Option<f64>,
 }
 
 /// Parses the text of a `reckon.toml`.
@@ -89,6 +95,9 @@ pub fn parse_project(text: &str) -> Result<Project, Diagnostic> {
                     update: raw.update,
                     integrator: raw.integrator,
                     unscented: raw.unscented,
+                    grid_cells: raw.cells,
+                    particles: raw.particles,
+                    resample_below: raw.resample_below,
                 },
                 span,
             }

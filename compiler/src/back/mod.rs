@@ -3,6 +3,7 @@
 //! `output` owns how generated files reach a repository (header, hashing,
 //! write-if-changed, check mode).
 
+pub mod bayes;
 pub mod interp;
 pub mod output;
 pub mod rust;

@@ -40,6 +40,12 @@ pub struct Args {
     /// Integrator for continuous motion in SPEC.
     #[arg(long, value_enum, default_value = "auto")]
     integrator: IntegratorArg,
+    /// Grid method: cells per axis for states whose range has no `by` cell size.
+    #[arg(long, value_name = "N")]
+    cells: Option<u32>,
+    /// Particle method: number of particles (default 1000).
+    #[arg(long, value_name = "N")]
+    particles: Option<u32>,
     /// Compare with the files on disk instead of writing them; exit 1 when any differs.
     #[arg(long)]
     check: bool,
@@ -72,6 +78,8 @@ fn jobs(args: &Args) -> Result<Vec<Job>, i32> {
             scalar: args.scalar.into(),
             update: args.update.into(),
             integrator: args.integrator.into(),
+            grid_cells: args.cells,
+            particles: args.particles,
             ..EstimatorOptions::default()
         };
         return Ok(vec![Job {

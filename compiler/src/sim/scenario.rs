@@ -137,6 +137,7 @@ impl Scenario {
             update: self.update,
             integrator: self.integrator,
             unscented: self.unscented,
+            ..EstimatorOptions::default()
         }
     }
 }

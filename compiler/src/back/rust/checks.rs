@@ -10,19 +10,6 @@ use crate::options::{EstimatorOptions, Method, UpdateForm};
 /// The hint every non-Gaussian refusal carries.
 const GAUSSIAN_HINT: &str = "use normal(...) with the same variance: a triangle of half-width a has sigma a/sqrt(6); a uniform of half-width a has sigma a/sqrt(3)";
 
-/// The refusal of a method that has no generator yet.
-pub(crate) fn refuse_method(method: Method) -> Vec<Diagnostic> {
-    vec![Diagnostic::new(
-        codes::METHOD_NOT_AVAILABLE,
-        Span::default(),
-        format!("method `{}` cannot be generated yet", method.name()),
-    )
-    .with_note(
-        "the method was chosen in the build options (reckon.toml, command line or build script)",
-    )
-    .with_hint("choose `kf`, `ekf` or `ukf`")]
-}
-
 /// Errors that refuse a Kalman method, or the warnings to report with the generated
 /// code.
 pub(crate) fn check(

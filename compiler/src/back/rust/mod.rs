@@ -9,6 +9,7 @@
 //!
 //! Output is deterministic: everything is emitted in declaration or index order.
 
+mod bayes;
 pub(crate) mod checks;
 mod kernels;
 mod models;
@@ -17,6 +18,7 @@ mod names;
 mod noise;
 mod straight;
 
+use crate::back::bayes as back_bayes;
 use crate::back::output;
 use crate::check;
 use crate::diag::{codes, Diagnostic, Span};
@@ -50,12 +52,14 @@ pub struct GenerationReport {
     pub sensors: usize,
     /// Lines of the module, header included.
     pub lines: usize,
-    /// Entries of the Jacobians `F` and every `H` (zero for `ukf`, which has none).
+    /// Entries of the Jacobians `F` and every `H` (zero for the methods without any).
     pub jacobian_entries_total: usize,
     /// Of those, entries that are structurally zero and never computed.
     pub jacobian_entries_skipped_zero: usize,
     /// How continuous motion was discretised, in one sentence.
     pub discretisation: String,
+    /// The size of a grid or particle belief (`800 cells`, `1000 particles`).
+    pub belief: Option<String>,
 }
 
 impl GenerationReport {
@@ -69,8 +73,12 @@ impl GenerationReport {
                 self.jacobian_entries_skipped_zero, self.jacobian_entries_total
             )
         };
+        let belief = self
+            .belief
+            .as_ref()
+            .map_or(String::new(), |size| format!(", {size}"));
         format!(
-            "{} estimator for `{}` in {}: {} states, {} sensors{jacobians}; motion: {}",
+            "{} estimator for `{}` in {}: {} states{belief}, {} sensors{jacobians}; motion: {}",
             method_title(self.method),
             self.model,
             self.scalar.name(),
@@ -145,8 +153,7 @@ pub fn generate_from_model(
     options: &EstimatorOptions,
 ) -> Result<Generated, Vec<Diagnostic>> {
     if !options.method.is_kalman() {
-        // Refused before lowering: nothing below applies to these methods.
-        return Err(checks::refuse_method(options.method));
+        return generate_bayes(spec_path, spec_text, model, options);
     }
     let lower_options = lower_options(options);
     let mut lowered = ir::lower(model, &lower_options)?;
@@ -160,6 +167,49 @@ pub fn generate_from_model(
         scalar: options.scalar,
     };
     let items = module::emit(&ctx);
+    let report = report(model, &lowered, options);
+    finish(spec_path, spec_text, items, report, warnings)
+}
+
+/// The grid and particle methods: plan, then emit.
+fn generate_bayes(
+    spec_path: &str,
+    spec_text: &str,
+    model: &Model,
+    options: &EstimatorOptions,
+) -> Result<Generated, Vec<Diagnostic>> {
+    let plan = back_bayes::plan(model, options)?;
+    let ctx = Context {
+        model,
+        lowered: &plan.lowered,
+        options,
+        white: &noise::WhiteNoise::None,
+        scalar: options.scalar,
+    };
+    let items = bayes::emit(&ctx, &plan);
+    let mut report = report(model, &plan.lowered, options);
+    report.belief = Some(match &plan.grid {
+        Some(grid) => {
+            let counts: Vec<String> = grid.axes.iter().map(|a| a.count.to_string()).collect();
+            if counts.len() == 1 {
+                format!("{} cells", grid.cells())
+            } else {
+                format!("{} cells ({})", grid.cells(), counts.join(" x "))
+            }
+        }
+        None => format!("{} particles", plan.particles),
+    });
+    finish(spec_path, spec_text, items, report, plan.warnings.clone())
+}
+
+/// Parses and pretty-prints the emitted items and puts the header on top.
+fn finish(
+    spec_path: &str,
+    spec_text: &str,
+    items: proc_macro2::TokenStream,
+    mut report: GenerationReport,
+    warnings: Vec<Diagnostic>,
+) -> Result<Generated, Vec<Diagnostic>> {
     let file = syn::parse2::<syn::File>(items).map_err(|error| {
         vec![Diagnostic::new(
             codes::INTERNAL,
@@ -168,7 +218,6 @@ pub fn generate_from_model(
         )]
     })?;
     let body = prettyplease::unparse(&file);
-    let mut report = report(model, &lowered, options);
     // The header names the line count of the whole file, so count it with a
     // placeholder summary of the same line structure first.
     let header_lines = output::header(spec_path, spec_text, "").lines().count();
@@ -182,7 +231,7 @@ pub fn generate_from_model(
 }
 
 fn report(model: &Model, lowered: &Lowered, options: &EstimatorOptions) -> GenerationReport {
-    let (total, zero) = if options.method == Method::Ukf {
+    let (total, zero) = if options.method != Method::Ekf && options.method != Method::Kf {
         (0, 0)
     } else {
         std::iter::once(&lowered.f_jac)
@@ -206,6 +255,7 @@ fn report(model: &Model, lowered: &Lowered, options: &EstimatorOptions) -> Gener
         jacobian_entries_total: total,
         jacobian_entries_skipped_zero: zero,
         discretisation: lowered.discretisation.reason.clone(),
+        belief: None,
     }
 }
 

@@ -48,7 +48,7 @@ pub(crate) fn usize_literal(value: usize) -> Literal {
 }
 
 /// A parameter name, prefixed with `_` when the body does not read it.
-fn param(name: &str, used: bool) -> Ident {
+pub(super) fn param(name: &str, used: bool) -> Ident {
     let name = if used {
         name.to_string()
     } else {
@@ -59,16 +59,16 @@ fn param(name: &str, used: bool) -> Ident {
 
 /// What a function body reads, deciding its parameter names and bindings.
 #[derive(Default)]
-struct Reads {
-    states: BTreeSet<u32>,
-    inputs: BTreeSet<u32>,
-    args: BTreeSet<u32>,
-    dt: bool,
+pub(super) struct Reads {
+    pub states: BTreeSet<u32>,
+    pub inputs: BTreeSet<u32>,
+    pub args: BTreeSet<u32>,
+    pub dt: bool,
     runtime: BTreeSet<(RuntimeMatrix, u32, u32)>,
 }
 
 impl Reads {
-    fn of(symbols: &BTreeSet<Symbol>) -> Reads {
+    pub(super) fn of(symbols: &BTreeSet<Symbol>) -> Reads {
         let mut reads = Reads::default();
         for &s in symbols {
             match s {
@@ -92,7 +92,7 @@ impl Reads {
     }
 
     /// `let` statements binding every symbol read, from the function's parameters.
-    fn prelude(&self, ctx: &Context) -> TokenStream {
+    pub(super) fn prelude(&self, ctx: &Context) -> TokenStream {
         let vector = |source: TokenStream, prefix: &str, len: usize, used: &BTreeSet<u32>| {
             if used.is_empty() {
                 return quote!();

@@ -14,6 +14,7 @@ use super::names::{self, number};
 use super::noise::white_states;
 use super::Context;
 use crate::ir::RuntimeMatrix;
+use crate::back::bayes::{Shape, Spread};
 use crate::model::{DeclaredUnit, Distribution, ProcessNoiseKind, SensorNoise};
 use crate::options::Method;
 use crate::stats;
@@ -25,16 +26,38 @@ impl Context<'_> {
     }
 
     pub(crate) fn tuning_step(&self, state: usize) -> Ident {
-        names::joined(&[&self.model.states[state].name, "step_sigma"])
+        let shape = self
+            .model
+            .process_noise
+            .iter()
+            .find_map(|p| match &p.kind {
+                ProcessNoiseKind::PerStep(d) if p.state == state => Some(Spread::of(d).shape),
+                _ => None,
+            })
+            .unwrap_or(Shape::Normal);
+        let suffix = format!("step_{}", width_suffix(shape));
+        names::joined(&[&self.model.states[state].name, &suffix])
     }
 
     pub(crate) fn tuning_input(&self, input: usize) -> Ident {
-        names::joined(&[&self.model.inputs[input].name, "sigma"])
+        let input = &self.model.inputs[input];
+        let shape = input.noise.map_or(Shape::Normal, |d| Spread::of(&d).shape);
+        names::joined(&[&input.name, width_suffix(shape)])
     }
 
     pub(crate) fn tuning_component(&self, sensor: usize, component: usize) -> Ident {
         let sensor = &self.model.sensors[sensor];
-        names::joined(&[&sensor.name, &sensor.components[component].name, "sigma"])
+        let shape = match &sensor.noise {
+            SensorNoise::PerComponent(list) => {
+                list.get(component).map_or(Shape::Normal, |d| Spread::of(d).shape)
+            }
+            SensorNoise::Covariance(_) => Shape::Normal,
+        };
+        names::joined(&[
+            &sensor.name,
+            &sensor.components[component].name,
+            width_suffix(shape),
+        ])
     }
 
     pub(crate) fn tuning_covariance(&self, sensor: usize) -> Ident {
@@ -53,25 +76,42 @@ impl Context<'_> {
         Ident::new(&name, proc_macro2::Span::call_site())
     }
 
-    fn number(&self, value: f64) -> TokenStream {
+    pub(super) fn number(&self, value: f64) -> TokenStream {
         number(value, self.scalar).tokens
     }
 }
 
-fn doc(text: impl AsRef<str>) -> TokenStream {
+/// The tuning-field suffix of a noise width: standard deviation or half-width.
+fn width_suffix(shape: Shape) -> &'static str {
+    match shape {
+        Shape::Normal => "sigma",
+        Shape::Triangle | Shape::Uniform => "half_width",
+    }
+}
+
+/// "Standard deviation of", "Half-width of the triangle" or "Half-width of the uniform".
+fn width_words(shape: Shape) -> &'static str {
+    match shape {
+        Shape::Normal => "Standard deviation of",
+        Shape::Triangle => "Half-width of the triangle distribution of",
+        Shape::Uniform => "Half-width of the uniform distribution of",
+    }
+}
+
+pub(super) fn doc(text: impl AsRef<str>) -> TokenStream {
     let text = format!(" {}", text.as_ref());
     quote!(#[doc = #text])
 }
 
 /// Doc lines for a spec item's own doc comment, then `extra`.
-fn docs(own: &Option<String>, extra: String) -> TokenStream {
+pub(super) fn docs(own: &Option<String>, extra: String) -> TokenStream {
     let own = own.iter().flat_map(|d| d.lines()).map(doc);
     let extra = doc(extra);
     quote!(#(#own)* #extra)
 }
 
 /// "Unit: m" or "Unit: m (SI; the spec declares ft)".
-fn si_unit(unit: &DeclaredUnit) -> String {
+pub(super) fn si_unit(unit: &DeclaredUnit) -> String {
     let si = unit.dimension.to_string();
     if unit.to_si == 1.0 {
         format!("Unit: {} (SI).", unit.text)
@@ -80,7 +120,7 @@ fn si_unit(unit: &DeclaredUnit) -> String {
     }
 }
 
-fn amplitude_dimension(state: &Dimension) -> String {
+pub(super) fn amplitude_dimension(state: &Dimension) -> String {
     Dimension::base(Base::Time)
         .pow(Rational::HALF)
         .and_then(|root| state.div(&root))
@@ -88,7 +128,7 @@ fn amplitude_dimension(state: &Dimension) -> String {
 }
 
 /// `value * factor`, or `value` alone when the factor is one.
-fn to_si(ctx: &Context, value: TokenStream, unit: &DeclaredUnit) -> TokenStream {
+pub(super) fn to_si(ctx: &Context, value: TokenStream, unit: &DeclaredUnit) -> TokenStream {
     if unit.to_si == 1.0 {
         value
     } else {
@@ -252,7 +292,7 @@ fn vector_conversions(t: &TokenStream, ty: &Ident, fields: &[Ident]) -> TokenStr
     }
 }
 
-fn state_struct(ctx: &Context) -> TokenStream {
+pub(super) fn state_struct(ctx: &Context) -> TokenStream {
     let t = ctx.scalar_type();
     let states = &ctx.model.states;
     let fields: Vec<Ident> = states.iter().map(|s| names::ident(&s.name)).collect();
@@ -348,7 +388,7 @@ fn declared_struct<'a>(
     }
 }
 
-fn input_struct(ctx: &Context) -> TokenStream {
+pub(super) fn input_struct(ctx: &Context) -> TokenStream {
     let ty = Ident::new("Input", proc_macro2::Span::call_site());
     let members = ctx
         .model
@@ -366,7 +406,7 @@ fn input_struct(ctx: &Context) -> TokenStream {
     )
 }
 
-fn reading_struct(ctx: &Context, index: usize) -> TokenStream {
+pub(super) fn reading_struct(ctx: &Context, index: usize) -> TokenStream {
     let sensor = &ctx.model.sensors[index];
     let ty = names::type_ident(&sensor.name, "Reading");
     let members = sensor
@@ -417,24 +457,32 @@ fn tuning_fields(ctx: &Context) -> Vec<TuningField> {
                     amplitude_dimension(&state.unit.dimension)
                 ),
             )),
-            ProcessNoiseKind::PerStep(distribution) => fields.push(scalar(
-                ctx.tuning_step(noise.state),
-                distribution.variance().sqrt(),
-                format!(
-                    "Standard deviation of the noise added to `{}` each step. Unit: {} (SI).",
-                    state.name, state.unit.dimension
-                ),
-            )),
+            ProcessNoiseKind::PerStep(distribution) => {
+                let spread = Spread::of(distribution);
+                fields.push(scalar(
+                    ctx.tuning_step(noise.state),
+                    spread.width,
+                    format!(
+                        "{} the noise added to `{}` each step. Unit: {} (SI).",
+                        width_words(spread.shape),
+                        state.name,
+                        state.unit.dimension
+                    ),
+                ))
+            }
         }
     }
     for (index, input) in model.inputs.iter().enumerate() {
         if let Some(distribution) = &input.noise {
+            let spread = Spread::of(distribution);
             fields.push(scalar(
                 ctx.tuning_input(index),
-                distribution.variance().sqrt(),
+                spread.width,
                 format!(
-                    "Standard deviation of the noise on input `{}`. Unit: {} (SI).",
-                    input.name, input.unit.dimension
+                    "{} the noise on input `{}`. Unit: {} (SI).",
+                    width_words(spread.shape),
+                    input.name,
+                    input.unit.dimension
                 ),
             ));
         }
@@ -445,12 +493,16 @@ fn tuning_fields(ctx: &Context) -> Vec<TuningField> {
                 for (component_index, (component, distribution)) in
                     sensor.components.iter().zip(list).enumerate()
                 {
+                    let spread = Spread::of(distribution);
                     fields.push(scalar(
                         ctx.tuning_component(index, component_index),
-                        distribution.variance().sqrt(),
+                        spread.width,
                         format!(
-                            "Standard deviation of the reading noise of `{}.{}`. Unit: {} (SI).",
-                            sensor.name, component.name, component.unit.dimension
+                            "{} the reading noise of `{}.{}`. Unit: {} (SI).",
+                            width_words(spread.shape),
+                            sensor.name,
+                            component.name,
+                            component.unit.dimension
                         ),
                     ));
                 }
@@ -478,7 +530,7 @@ fn tuning_fields(ctx: &Context) -> Vec<TuningField> {
                 });
             }
         }
-        if sensor.gate.is_some() {
+        if sensor.gate.is_some() && ctx.options.method.is_kalman() {
             let constant = ctx.gate_constant(index);
             fields.push(TuningField {
                 name: ctx.tuning_gate(index),
@@ -494,7 +546,7 @@ fn tuning_fields(ctx: &Context) -> Vec<TuningField> {
     fields
 }
 
-fn tuning_struct(ctx: &Context) -> TokenStream {
+pub(super) fn tuning_struct(ctx: &Context) -> TokenStream {
     let fields = tuning_fields(ctx);
     let declarations = fields.iter().map(|f| {
         let doc = doc(&f.doc);

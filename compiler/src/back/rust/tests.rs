@@ -58,7 +58,7 @@ fn check_golden(name: &str, actual: &str) -> Option<String> {
     }
 }
 
-/// Every demo spec the Kalman methods accept, with the variants kept as golden files.
+/// Demo specs with the variants kept as golden files.
 const GOLDEN: &[(&str, Method, Scalar)] = &[
     ("rail_cart", Method::Kf, Scalar::F64),
     ("rail_cart", Method::Ekf, Scalar::F64),
@@ -72,6 +72,11 @@ const GOLDEN: &[(&str, Method, Scalar)] = &[
     ("survey_launch", Method::Ekf, Scalar::F64),
     ("survey_launch", Method::Ekf, Scalar::F32),
     ("survey_launch", Method::Ukf, Scalar::F64),
+    ("marker_track", Method::Ekf, Scalar::F64),
+    ("marker_track", Method::Grid, Scalar::F64),
+    ("marker_track", Method::Grid, Scalar::F32),
+    ("marker_track", Method::Particle, Scalar::F64),
+    ("canal_ferry", Method::Particle, Scalar::F64),
 ];
 
 #[test]
@@ -128,9 +133,18 @@ fn kf_refuses_a_nonlinear_model_at_the_nonlinear_term() {
     assert!(failure.is_none(), "{failure:?}");
 }
 
+/// The marker-track demo with triangular wheel slip: a model for the grid and
+/// particle methods only.
+fn triangular_slip() -> String {
+    let text = spec("marker_track");
+    let slip = "position ~ normal(1 cm)";
+    assert!(text.contains(slip));
+    text.replace(slip, "position ~ triangle(2 cm)")
+}
+
 #[test]
 fn kalman_methods_refuse_non_gaussian_noise_with_the_conversion_hint() {
-    let text = spec("marker_track");
+    let text = triangular_slip();
     for method in [Method::Kf, Method::Ekf, Method::Ukf] {
         let diagnostics = refused("marker_track", &text, &options(method, Scalar::F64));
         let noise = diagnostics
@@ -150,15 +164,44 @@ fn kalman_methods_refuse_non_gaussian_noise_with_the_conversion_hint() {
 }
 
 #[test]
-fn grid_and_particle_are_refused_not_faked() {
-    for method in [Method::Grid, Method::Particle] {
-        let diagnostics = refused(
-            "marker_track",
-            &spec("marker_track"),
-            &options(method, Scalar::F64),
-        );
-        assert_eq!(diagnostics[0].code, codes::METHOD_NOT_AVAILABLE);
-    }
+fn grid_and_particle_refusals_point_at_the_cause() {
+    // Triangular slip plus normal odometry noise on one axis: no single grid kernel.
+    let text = triangular_slip();
+    let diagnostics = refused("marker_track", &text, &options(Method::Grid, Scalar::F64));
+    assert_eq!(diagnostics[0].code, codes::GRID_MOTION_NOISE);
+    let span = diagnostics[0].primary_span();
+    assert_eq!(&text[span.start..span.end], "position ~ triangle(2 cm)");
+    let golden = render::human("specs/marker_track.reckon", &text, &diagnostics);
+    let failure = check_golden("marker_track.grid.stderr", &golden);
+    assert!(failure.is_none(), "{failure:?}");
+    // The particle filter samples both where they enter.
+    let particle = generate("marker_track", &text, &options(Method::Particle, Scalar::F64))
+        .unwrap_or_else(|d| panic!("{d:?}"));
+    assert!(particle.code.contains("Noise::Triangle"));
+    // A state that wraps fits neither.
+    let diagnostics = refused("pallet_robot", &spec("pallet_robot"), &options(Method::Particle, Scalar::F64));
+    assert_eq!(diagnostics[0].code, codes::MODEL_DOES_NOT_FIT_METHOD);
+    let too_many = EstimatorOptions {
+        particles: Some(0),
+        ..options(Method::Particle, Scalar::F64)
+    };
+    assert_eq!(refused("rail_cart", &spec("rail_cart"), &too_many)[0].code, codes::BELIEF_SIZE_INVALID);
+}
+
+#[test]
+fn grid_and_particle_reports_give_the_belief_size() {
+    let grid = generated("marker_track", &options(Method::Grid, Scalar::F64));
+    assert_eq!(grid.report.belief.as_deref(), Some("800 cells"));
+    assert!(grid.code.contains("pub const POSITION_CELLS: usize = 800;"));
+    assert_eq!(grid.report.jacobian_entries_total, 0);
+    let particles = EstimatorOptions {
+        particles: Some(250),
+        ..options(Method::Particle, Scalar::F64)
+    };
+    let particle = generated("marker_track", &particles);
+    assert_eq!(particle.report.belief.as_deref(), Some("250 particles"));
+    assert!(particle.code.contains("pub const PARTICLES: usize = 250;"));
+    assert!(particle.code.contains(&particle.report.summary()));
 }
 
 #[test]
@@ -194,7 +237,7 @@ fn sequential_updates_fall_back_to_joseph_for_correlated_noise() {
 
 #[test]
 fn a_non_gaussian_initial_belief_is_approximated_with_a_warning() {
-    let text = spec("marker_track").replace("triangle(2 cm)", "normal(1 cm)");
+    let text = spec("marker_track");
     let result = generate("marker_track", &text, &EstimatorOptions::default())
         .unwrap_or_else(|d| panic!("{d:?}"));
     assert!(result
@@ -213,10 +256,13 @@ fn every_back_end_code_is_produced_by_these_tests() {
     let covered = [
         codes::KF_NEEDS_LINEAR_MODEL,
         codes::KALMAN_NEEDS_GAUSSIAN_NOISE,
-        codes::METHOD_NOT_AVAILABLE,
         codes::UNSCENTED_PARAMETERS_INVALID,
+        codes::MODEL_DOES_NOT_FIT_METHOD,
+        codes::GRID_MOTION_NOISE,
+        codes::BELIEF_SIZE_INVALID,
         codes::SEQUENTIAL_NEEDS_DIAGONAL_NOISE,
         codes::INITIAL_NOT_GAUSSIAN,
+        codes::GATE_NOT_APPLIED,
     ];
     let owned: Vec<&str> = codes::ALL
         .iter()

@@ -1,4 +1,4 @@
-//! The 1-D grid filter: `N` cells along one axis.
+//! The 1-D grid filter: the cells of one axis (up to the capacity `N`).
 
 use nalgebra::{RealField, SVector, Vector1};
 
@@ -13,8 +13,8 @@ use super::{
     GridPrediction, Mode,
 };
 
-/// A belief over one state component on `N` cells. See the [module](super) for the
-/// discretisation, the boundary policy and the cost.
+/// A belief over one state component on the axis's cells (its count, at most `N`). See
+/// the [module](super) for the discretisation, the boundary policy and the cost.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Grid1<T, const N: usize> {
     plane: Plane<T, N, 1>,
@@ -25,11 +25,13 @@ fn unit_row<T: RealField + Copy>() -> Axis<T, 1> {
     Axis {
         lo: lit(-0.5),
         width: T::one(),
+        count: 1,
     }
 }
 
 impl<T: RealField + Copy, const N: usize> Grid1<T, N> {
-    /// A belief with the given (unnormalised, non-negative) cell masses.
+    /// A belief with the given (unnormalised, non-negative) cell masses; the masses past
+    /// the axis's count must be zero ([`GridError::InvalidMass`] otherwise).
     pub fn from_masses(
         axis: Axis<T, N>,
         masses: [T; N],
@@ -40,9 +42,9 @@ impl<T: RealField + Copy, const N: usize> Grid1<T, N> {
         })
     }
 
-    /// The same mass in every cell: "anywhere on the grid".
+    /// The same mass in every cell of the axis: "anywhere on the grid".
     pub fn uniform(axis: Axis<T, N>, options: GridOptions<T>) -> Result<Self, GridError> {
-        Self::from_masses(axis, [T::one(); N], options)
+        Self::from_masses(axis, axis.ones(), options)
     }
 
     /// The density `shape` centred at `mean`, integrated over each cell.
@@ -99,9 +101,9 @@ impl<T: RealField + Copy, const N: usize> Grid1<T, N> {
         &self.plane.x
     }
 
-    /// The cell masses (they sum to one).
-    pub fn masses(&self) -> &[T; N] {
-        &self.plane.mass[0]
+    /// The masses of the axis's cells (they sum to one): `axis().count()` of them.
+    pub fn masses(&self) -> &[T] {
+        &self.plane.mass[0][..self.plane.x.count]
     }
 
     /// The first and last cells with mass; every cell outside is exactly zero.
@@ -173,7 +175,7 @@ mod tests {
     }
 
     fn bits<const N: usize>(grid: &Grid1<f64, N>) -> [u64; N] {
-        grid.masses().map(f64::to_bits)
+        grid.plane.mass[0].map(f64::to_bits)
     }
 
     fn drift(noise: Noise<f64>) -> Drift<f64> {

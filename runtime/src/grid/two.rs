@@ -1,4 +1,5 @@
-//! The 2-D grid filter: `NX x NY` cells stored row by row in one flat array.
+//! The 2-D grid filter: the cells of two axes (up to the capacity `NX x NY`) stored row
+//! by row in one flat array.
 
 use nalgebra::{Matrix2, RealField, SVector, Vector2};
 
@@ -13,15 +14,18 @@ use super::{
     GridPrediction, Mode,
 };
 
-/// A belief over two state components `(x, y)` on `NX x NY` cells. See the
-/// [module](super) for the discretisation, the boundary policy and the cost.
+/// A belief over two state components `(x, y)` on the cells of two axes (their counts,
+/// at most `NX` and `NY`). See the [module](super) for the discretisation, the boundary
+/// policy and the cost.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Grid2<T, const NX: usize, const NY: usize> {
     plane: Plane<T, NX, NY>,
 }
 
 impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
-    /// A belief with the given (unnormalised, non-negative) masses, `masses[iy][ix]`.
+    /// A belief with the given (unnormalised, non-negative) masses, `masses[iy][ix]`;
+    /// the masses past either axis's count must be zero ([`GridError::InvalidMass`]
+    /// otherwise).
     pub fn from_masses(
         x: Axis<T, NX>,
         y: Axis<T, NY>,
@@ -33,13 +37,15 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
         })
     }
 
-    /// The same mass in every cell.
+    /// The same mass in every cell of the axes.
     pub fn uniform(
         x: Axis<T, NX>,
         y: Axis<T, NY>,
         options: GridOptions<T>,
     ) -> Result<Self, GridError> {
-        Self::from_masses(x, y, [[T::one(); NX]; NY], options)
+        let (cols, rows) = (x.ones(), y.ones());
+        let masses = rows.map(|row| cols.map(|col| row * col));
+        Self::from_masses(x, y, masses, options)
     }
 
     /// Independent densities `shape[0]` along x and `shape[1]` along y centred at
@@ -105,7 +111,8 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
         (&self.plane.x, &self.plane.y)
     }
 
-    /// The masses, row by row: cell `(ix, iy)` at index `iy * NX + ix`.
+    /// The stored masses, row by row: cell `(ix, iy)` at index `iy * NX + ix` (`NX` the
+    /// capacity); the cells past either axis's count are zero.
     pub fn masses(&self) -> &[T] {
         self.plane.mass.as_flattened()
     }

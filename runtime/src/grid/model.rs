@@ -91,7 +91,8 @@ pub enum PredictError {
     NonFiniteInput,
     /// A motion-noise component was refused.
     InvalidNoise {
-        /// The state component whose noise was refused.
+        /// The state component whose noise was refused (for a model that draws its own
+        /// noise, the index of the refused noise source).
         component: usize,
         /// Why.
         reason: NoiseError,

@@ -661,6 +661,370 @@ mod tests {
         assert!((filter.mean()[0] - 0.5).abs() < 0.2);
     }
 
+    /// `x_next = x + speed_of(u + w) dt` with `w` drawn from `speed_noise`: the noise of
+    /// a measured speed enters through the input. Counts its draws.
+    struct NoisySpeed {
+        speed_noise: Noise<f64>,
+        speed_of: fn(f64) -> f64,
+        draws: Cell<usize>,
+    }
+
+    impl NoisySpeed {
+        fn new(speed_noise: Noise<f64>, speed_of: fn(f64) -> f64) -> Self {
+            Self {
+                speed_noise,
+                speed_of,
+                draws: Cell::new(0),
+            }
+        }
+    }
+
+    impl SampledMotion<f64, 1, 1> for NoisySpeed {
+        fn check_noise(&self, _: &Vector1<f64>, _: f64) -> Result<(), PredictError> {
+            self.speed_noise
+                .validate()
+                .map_err(|reason| PredictError::InvalidNoise {
+                    component: 0,
+                    reason,
+                })
+        }
+        fn sample_transition(
+            &self,
+            x: &Vector1<f64>,
+            u: &Vector1<f64>,
+            dt: f64,
+            rng: &mut Pcg32,
+        ) -> Vector1<f64> {
+            self.draws.set(self.draws.get() + 1);
+            let speed = (self.speed_of)(u[0] + rng.sample(&self.speed_noise));
+            x.map(|p| p + speed * dt)
+        }
+    }
+
+    /// A planar vehicle driving `u[0] dt` along the heading `u[1] + w`, `w` drawn from
+    /// `heading_noise`: noise through a nonlinear function of the input.
+    struct NoisyHeading {
+        heading_noise: Noise<f64>,
+    }
+
+    impl SampledMotion<f64, 2, 2> for NoisyHeading {
+        fn check_noise(&self, _: &Vector2<f64>, _: f64) -> Result<(), PredictError> {
+            self.heading_noise
+                .validate()
+                .map_err(|reason| PredictError::InvalidNoise {
+                    component: 0,
+                    reason,
+                })
+        }
+        fn sample_transition(
+            &self,
+            x: &Vector2<f64>,
+            u: &Vector2<f64>,
+            dt: f64,
+            rng: &mut Pcg32,
+        ) -> Vector2<f64> {
+            let heading = u[1] + rng.sample(&self.heading_noise);
+            x + Vector2::new(heading.cos(), heading.sin()) * (u[0] * dt)
+        }
+    }
+
+    /// `count` particles at `start` in a filter of capacity `N`.
+    fn all_at<const D: usize, const N: usize>(
+        start: SVector<f64, D>,
+        count: usize,
+        seed: u64,
+    ) -> ParticleFilter<f64, D, N> {
+        let particles = [start; N];
+        ParticleFilter::from_particle_slice(
+            &particles[..count],
+            Pcg32::new(seed, 17),
+            ParticleOptions::default(),
+        )
+        .expect("valid particles")
+    }
+
+    #[test]
+    fn noise_entering_through_the_input_spreads_by_its_width_times_the_step() {
+        // x_next = x + (u + w) dt from a point: Var = (s dt)^2, mean u dt (variance of a
+        // scaled variable, common practice, no source). Tolerance: 4 Monte Carlo standard
+        // errors, sqrt(var / n) for the mean and var sqrt(2 / (n - 1)) for the sample
+        // variance of a normal (common practice, no source).
+        let (speed, s, dt, n) = (2.0, 0.4, 0.5, 4000);
+        let variance = (s * dt) * (s * dt);
+        for seed in 1..=4 {
+            let mut filter = all_at::<1, 4096>(Vector1::new(0.0), n, seed);
+            let motion = NoisySpeed::new(normal(s), |v| v);
+            filter
+                .predict(&motion, &Vector1::new(speed), dt)
+                .expect("finite");
+            assert_eq!(motion.draws.get(), n);
+            let mean_error = (filter.mean()[0] - speed * dt).abs();
+            assert!(
+                mean_error < 4.0 * (variance / n as f64).sqrt(),
+                "seed {seed}"
+            );
+            let spread_error = (filter.covariance()[(0, 0)] - variance).abs();
+            let standard_error = variance * (2.0 / (n as f64 - 1.0)).sqrt();
+            assert!(spread_error < 4.0 * standard_error, "seed {seed}");
+        }
+    }
+
+    #[test]
+    fn heading_noise_bends_the_cloud_and_shortens_its_mean_reach() {
+        // Driving a distance r along a heading theta + w, w ~ N(0, s^2), from the origin:
+        // every particle lies on the circle of radius r, and the mean sits at
+        // r E[cos w] = r exp(-s^2 / 2) along the heading and 0 across it, with
+        // Var(cos w) = (1 + exp(-2 s^2)) / 2 - exp(-s^2) and
+        // Var(sin w) = (1 - exp(-2 s^2)) / 2 (characteristic function of the normal,
+        // common practice, no source). Tolerance: 4 Monte Carlo standard errors of the
+        // mean, sqrt(var / n).
+        let (r, theta, s, n) = (10.0, 0.3, 0.5_f64, 4000);
+        let along_variance = r * r * ((1.0 + (-2.0 * s * s).exp()) / 2.0 - (-s * s).exp());
+        let across_variance = r * r * (1.0 - (-2.0 * s * s).exp()) / 2.0;
+        let expected_reach = r * (-s * s / 2.0).exp();
+        let motion = NoisyHeading {
+            heading_noise: normal(s),
+        };
+        for seed in 1..=4 {
+            let mut filter = all_at::<2, 4096>(Vector2::zeros(), n, seed);
+            filter
+                .predict(&motion, &Vector2::new(r / 2.0, theta), 2.0)
+                .expect("finite");
+            assert!(filter
+                .particles()
+                .iter()
+                .all(|p| (p.norm() - r).abs() < 1e-12));
+            let mean = filter.mean();
+            let along = mean.dot(&Vector2::new(theta.cos(), theta.sin()));
+            let across = mean.dot(&Vector2::new(-theta.sin(), theta.cos()));
+            let tolerance = |variance: f64| 4.0 * (variance / n as f64).sqrt();
+            assert!(
+                (along - expected_reach).abs() < tolerance(along_variance),
+                "seed {seed}: {along}"
+            );
+            assert!(across.abs() < tolerance(across_variance), "seed {seed}");
+            assert!(mean.norm() < r - 1.0);
+        }
+    }
+
+    #[test]
+    fn rejected_sampled_predictions_keep_everything() {
+        let mut filter = all_at::<1, 64>(Vector1::new(1.0), 40, 3);
+        filter
+            .correct(
+                &ResidualLikelihood(Direct { noise: normal(1.0) }),
+                &Vector1::new(0.5),
+            )
+            .expect("consistent");
+        let before = bits(&filter);
+        let refused = NoisySpeed::new(normal(0.0), |v| v);
+        let cases = [
+            (1.0, f64::NAN, PredictError::NonFiniteStep),
+            (1.0, -1.0, PredictError::NonPositiveStep),
+            (f64::INFINITY, 1.0, PredictError::NonFiniteInput),
+        ];
+        for (speed, dt, expected) in cases {
+            assert_eq!(
+                filter.predict(&refused, &Vector1::new(speed), dt),
+                Err(expected)
+            );
+        }
+        assert!(matches!(
+            filter.predict(&refused, &Vector1::new(1.0), 1.0),
+            Err(PredictError::InvalidNoise { component: 0, .. })
+        ));
+        assert_eq!(
+            refused.draws.get(),
+            0,
+            "no particle moves before the checks"
+        );
+        // The square root of a noisy speed around zero is NaN for about half the draws:
+        // the first one rejects the whole step.
+        let root = NoisySpeed::new(normal(1.0), f64::sqrt);
+        assert_eq!(
+            filter.predict(&root, &Vector1::new(0.0), 1.0),
+            Err(PredictError::NonFiniteTransition)
+        );
+        assert!(root.draws.get() >= 1);
+        assert_eq!(bits(&filter), before);
+    }
+
+    /// The statistics of a filter as bits: effective size, mean, covariance and the
+    /// probability of a box.
+    fn statistics_bits<const N: usize>(filter: &ParticleFilter<f64, 2, N>) -> [u64; 7] {
+        let (mean, covariance) = (filter.mean(), filter.covariance());
+        let (lo, hi) = (Vector2::new(-0.5, -1.0), Vector2::new(1.5, 0.5));
+        [
+            filter.effective_size(),
+            mean[0],
+            mean[1],
+            covariance[(0, 0)],
+            covariance[(0, 1)],
+            covariance[(1, 1)],
+            filter.probability_in(&lo, &hi),
+        ]
+        .map(f64::to_bits)
+    }
+
+    /// Asserts that a counted filter agrees bit for bit with an exactly sized one in
+    /// everything observable, and holds zeros past its count.
+    fn assert_same_filter<const A: usize, const B: usize>(
+        counted: &ParticleFilter<f64, 2, A>,
+        exact: &ParticleFilter<f64, 2, B>,
+        step: usize,
+    ) {
+        let particle_bits = |p: &SVector<f64, 2>| p.map(f64::to_bits);
+        assert!(
+            counted
+                .particles()
+                .iter()
+                .map(particle_bits)
+                .eq(exact.particles().iter().map(particle_bits)),
+            "step {step}"
+        );
+        assert!(
+            counted
+                .ln_weights()
+                .iter()
+                .map(|w| w.to_bits())
+                .eq(exact.ln_weights().iter().map(|w| w.to_bits())),
+            "step {step}"
+        );
+        assert_eq!(counted.rng(), exact.rng(), "step {step}");
+        assert_eq!(
+            statistics_bits(counted),
+            statistics_bits(exact),
+            "step {step}"
+        );
+        assert!(counted.particles[counted.count..]
+            .iter()
+            .all(|p| *p == Vector2::zeros()));
+        assert!(counted.ln_weights[counted.count..]
+            .iter()
+            .all(|&w| w == 0.0));
+    }
+
+    /// Step `index` of a predict/correct/resample sequence (`None` past its end); returns
+    /// what the step reported, as bits.
+    fn sequence_step<const N: usize>(
+        filter: &mut ParticleFilter<f64, 2, N>,
+        index: usize,
+    ) -> Option<Result<[u64; 3], PredictOrCorrect>> {
+        let predicted = |result: Result<(), PredictError>| {
+            Some(result.map(|()| [0; 3]).map_err(PredictOrCorrect::Predict))
+        };
+        let corrected = |result: Result<ParticleCorrection<f64>, CorrectError>| {
+            Some(
+                result
+                    .map(|c| {
+                        [
+                            c.ln_evidence.to_bits(),
+                            c.effective_size.to_bits(),
+                            u64::from(c.resampled),
+                        ]
+                    })
+                    .map_err(PredictOrCorrect::Correct),
+            )
+        };
+        let reading = |std_dev| {
+            ResidualLikelihood(Direct {
+                noise: normal(std_dev),
+            })
+        };
+        let heading = NoisyHeading {
+            heading_noise: Noise::Triangle { half_width: 0.4 },
+        };
+        match index {
+            0 => predicted(filter.predict(&drift(normal(0.2)), &Vector2::new(0.4, -0.1), 1.0)),
+            // Broad: the effective size stays between 0.7 x 700 and 0.7 x 1024, so a
+            // threshold taken from the capacity instead of the count would resample.
+            1 => corrected(filter.correct(&reading(1.0), &Vector2::new(0.5, -0.2))),
+            2 => predicted(filter.predict(&heading, &Vector2::new(0.3, 0.7), 0.5)),
+            // Sharp enough to resample automatically.
+            3 => corrected(filter.correct(&reading(0.02), &Vector2::new(0.6, 0.0))),
+            4 => {
+                filter.resample();
+                Some(Ok([0; 3]))
+            }
+            5 => corrected(filter.correct(&reading(0.3), &Vector2::new(f64::NAN, 0.0))),
+            6 => predicted(filter.predict(&heading, &Vector2::new(0.3, 0.7), -1.0)),
+            7 => corrected(filter.correct(&reading(0.5), &Vector2::new(0.7, 0.2))),
+            _ => None,
+        }
+    }
+
+    #[derive(Debug, PartialEq)]
+    enum PredictOrCorrect {
+        Predict(PredictError),
+        Correct(CorrectError),
+    }
+
+    #[test]
+    fn a_counted_filter_matches_an_exactly_sized_one() {
+        for seed in [1, 77, 4096] {
+            let (mean, spread) = (
+                Vector2::new(0.2, -0.3),
+                [normal(0.8), Noise::Uniform { half_width: 1.0 }],
+            );
+            let rng = Pcg32::new(seed, 5);
+            let options = ParticleOptions {
+                resample_below: 0.7,
+            };
+            let mut exact = ParticleFilter::<f64, 2, 700>::from_noise(mean, spread, rng, options)
+                .expect("valid prior");
+            let mut counted =
+                ParticleFilter::<f64, 2, 1024>::from_noise_counted(700, mean, spread, rng, options)
+                    .expect("valid prior");
+            assert_same_filter(&counted, &exact, 0);
+            let (mut kept, mut resampled) = (false, false);
+            for index in 0.. {
+                let outcome = sequence_step(&mut exact, index);
+                assert_eq!(sequence_step(&mut counted, index), outcome, "step {index}");
+                let Some(outcome) = outcome else { break };
+                resampled |= matches!(outcome, Ok([_, _, 1]));
+                kept |= index == 1 && matches!(outcome, Ok([_, _, 0]));
+                assert_same_filter(&counted, &exact, index + 1);
+            }
+            assert!(resampled && kept, "the sequence covers both outcomes");
+            let copied = ParticleFilter::<f64, 2, 1024>::from_particle_slice(
+                exact.particles(),
+                exact.rng(),
+                options,
+            )
+            .expect("valid particles");
+            let exact_copy = ParticleFilter::from_particles(exact.particles, exact.rng(), options)
+                .expect("valid particles");
+            assert_same_filter(&copied, &exact_copy, usize::MAX);
+        }
+    }
+
+    #[test]
+    fn particle_counts_outside_the_capacity_are_refused() {
+        let rng = Pcg32::new(0, 0);
+        let options = ParticleOptions::default();
+        let origin = Vector1::new(0.0);
+        let counted = |count| {
+            ParticleFilter::<f64, 1, 8>::from_noise_counted(
+                count,
+                origin,
+                [normal(1.0)],
+                rng,
+                options,
+            )
+        };
+        assert_eq!(counted(0), Err(ParticleError::NoParticles));
+        assert_eq!(counted(9), Err(ParticleError::TooManyParticles));
+        assert_eq!(counted(8).map(|f| f.count()), Ok(8));
+        assert_eq!(
+            ParticleFilter::<f64, 1, 8>::from_particle_slice(&[origin; 9], rng, options),
+            Err(ParticleError::TooManyParticles)
+        );
+        let few = ParticleFilter::<f64, 1, 8>::from_particle_slice(&[origin; 3], rng, options)
+            .expect("valid particles");
+        assert_eq!(few.weights().count(), 3);
+        assert!((few.effective_size() - 3.0).abs() < 1e-12);
+    }
+
     proptest! {
         #[test]
         fn weights_stay_normalised(

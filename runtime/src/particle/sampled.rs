@@ -61,3 +61,39 @@ pub(super) fn perturbed<T: RealField + Copy, const D: usize>(
 ) -> SVector<T, D> {
     SVector::from_fn(|component, _| centre[component] + rng.sample(&noise[component]))
 }
+
+#[cfg(test)]
+mod tests {
+    use nalgebra::Vector2;
+
+    use super::*;
+    use crate::grid::test_models::Drift;
+
+    #[test]
+    fn additive_motion_draws_one_sample_per_component_after_the_transition() {
+        let motion = Drift {
+            noise: Noise::Triangle { half_width: 0.5 },
+            as_translation: false,
+        };
+        let (x, u, dt) = (Vector2::new(1.0, -2.0), Vector2::new(0.5, 0.25), 2.0);
+        let mut rng = Pcg32::new(12, 3);
+        let mut by_hand = rng;
+        let drawn = motion.sample_transition(&x, &u, dt, &mut rng);
+        let first = by_hand.sample(&motion.noise);
+        let second = by_hand.sample(&motion.noise);
+        assert_eq!(drawn, Vector2::new(2.0 + first, -1.5 + second));
+        assert_eq!(rng, by_hand);
+        assert_eq!(
+            SampledMotion::<f64, 2, 2>::check_noise(&motion, &u, dt),
+            Ok(())
+        );
+        let flat = Drift {
+            noise: Noise::Normal { std_dev: 0.0 },
+            as_translation: false,
+        };
+        assert!(matches!(
+            SampledMotion::<f64, 2, 2>::check_noise(&flat, &u, dt),
+            Err(PredictError::InvalidNoise { component: 0, .. })
+        ));
+    }
+}

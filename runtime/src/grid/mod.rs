@@ -1,7 +1,10 @@
 //! Grid (histogram) Bayes filters in one and two dimensions: the belief is a fixed array
 //! of cell masses, prediction convolves it with the motion noise, correction multiplies
 //! it by the reading's likelihood. Also owns the model contract ([`Motion`],
-//! [`Likelihood`]) and the noise shapes ([`Noise`]) that the particle filter shares.
+//! [`Likelihood`]) and the noise shapes ([`Noise`]) that the particle filter shares:
+//! every [`Motion`] is also a [`SampledMotion`](crate::particle::SampledMotion), the
+//! particle filter's contract, which additionally admits noise entering anywhere in the
+//! transition (a grid needs the additive form, since it convolves with one kernel).
 //!
 //! # Capacity and count
 //!

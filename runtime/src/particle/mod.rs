@@ -1027,6 +1027,36 @@ mod tests {
 
     proptest! {
         #[test]
+        fn the_capacity_never_shows_in_the_results(
+            seed in any::<u64>(),
+            count in 1..=64_usize,
+            shift in -3.0..3.0_f64,
+            reading_width in 0.01..3.0_f64,
+            z in -4.0..4.0_f64,
+            threshold in 0.05..=1.0_f64,
+        ) {
+            // The same count in two capacities, through predict and correct (which may
+            // resample): any use of the capacity instead of the count shows as a
+            // difference.
+            let start = |rng| (Vector1::new(0.0), [normal(1.0)], rng, ParticleOptions { resample_below: threshold });
+            let (mean, spread, rng, options) = start(Pcg32::new(seed, 9));
+            let mut small = ParticleFilter::<f64, 1, 64>::from_noise_counted(count, mean, spread, rng, options).expect("valid prior");
+            let mut large = ParticleFilter::<f64, 1, 96>::from_noise_counted(count, mean, spread, rng, options).expect("valid prior");
+            let motion = NoisySpeed::new(Noise::Triangle { half_width: 0.5 }, |v| v);
+            let reading = ResidualLikelihood(Direct { noise: normal(reading_width) });
+            for _ in 0..2 {
+                prop_assert_eq!(small.predict(&motion, &Vector1::new(shift), 1.0), large.predict(&motion, &Vector1::new(shift), 1.0));
+                let outcomes = (small.correct(&reading, &Vector1::new(z)), large.correct(&reading, &Vector1::new(z)));
+                prop_assert_eq!(outcomes.0.map(|c| (c.ln_evidence.to_bits(), c.resampled)), outcomes.1.map(|c| (c.ln_evidence.to_bits(), c.resampled)));
+                let bits = |p: &SVector<f64, 1>| p[0].to_bits();
+                prop_assert!(small.particles().iter().map(bits).eq(large.particles().iter().map(bits)));
+                prop_assert!(small.ln_weights().iter().map(|w| w.to_bits()).eq(large.ln_weights().iter().map(|w| w.to_bits())));
+                prop_assert_eq!(small.rng(), large.rng());
+                prop_assert_eq!(small.covariance()[(0, 0)].to_bits(), large.covariance()[(0, 0)].to_bits());
+            }
+        }
+
+        #[test]
         fn weights_stay_normalised(
             seed in any::<u64>(),
             spread in 0.01..5.0_f64,

@@ -1,6 +1,7 @@
 //! Cost of one predict + correct step of the grid and particle filters: a narrow and a
 //! wide belief on the same large grid (the grid's cost should follow the belief's
-//! support), and particle filters of two sizes.
+//! support), particle filters of two sizes, and each using a tenth of a ten times larger
+//! capacity (what the capacity's array copies cost on top).
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion};
 use nalgebra::{SVector, Vector1};
@@ -38,13 +39,13 @@ impl ReadingPrediction<f64, 1, 1> for Position {
     }
 }
 
-/// One step on a grid of `CELLS` cells of 1 cm starting at 0, belief centred at 5 m:
-/// a narrow belief costs about the same whatever the grid's size, a wide one follows
-/// the cells it covers.
-fn grid_step<const CELLS: usize>(c: &mut Criterion) {
-    let axis = Axis::<f64, CELLS>::new(0.0, 0.01).expect("valid axis");
+/// One step on a grid of `CELLS` cells of 1 cm starting at 0 (stored in arrays of
+/// `CAPACITY`), belief centred at 5 m: a narrow belief costs about the same whatever the
+/// grid's size, a wide one follows the cells it covers.
+fn grid_step<const CELLS: usize, const CAPACITY: usize>(c: &mut Criterion) {
+    let axis = Axis::<f64, CAPACITY>::with_count(0.0, 0.01, CELLS).expect("valid axis");
     let reading = ResidualLikelihood(Position);
-    let mut group = c.benchmark_group(format!("grid1_{CELLS}_cells_step"));
+    let mut group = c.benchmark_group(format!("grid1_{CELLS}_of_{CAPACITY}_cells_step"));
     for (label, spread) in [("narrow_sd_0.1m", 0.1), ("wide_sd_2m", 2.0)] {
         for translation in [true, false] {
             let start = Grid1::from_density(
@@ -74,8 +75,9 @@ fn grid_step<const CELLS: usize>(c: &mut Criterion) {
     group.finish();
 }
 
-fn particle_step<const N: usize>(c: &mut Criterion) {
-    let start = ParticleFilter::<f64, 1, N>::from_noise(
+fn particle_step<const N: usize, const CAPACITY: usize>(c: &mut Criterion) {
+    let start = ParticleFilter::<f64, 1, CAPACITY>::from_noise_counted(
+        N,
         Vector1::new(50.0),
         [Noise::Normal { std_dev: 1.0 }],
         Pcg32::new(1, 1),
@@ -84,7 +86,7 @@ fn particle_step<const N: usize>(c: &mut Criterion) {
     .expect("valid prior");
     let motion = Cart { translation: false };
     let reading = ResidualLikelihood(Position);
-    c.bench_function(&format!("particle1_{N}_step"), |b| {
+    c.bench_function(&format!("particle1_{N}_of_{CAPACITY}_step"), |b| {
         b.iter_batched_ref(
             || start.clone(),
             |filter| {
@@ -103,9 +105,11 @@ fn particle_step<const N: usize>(c: &mut Criterion) {
 
 criterion_group!(
     benches,
-    grid_step::<1000>,
-    grid_step::<10000>,
-    particle_step::<1000>,
-    particle_step::<10000>
+    grid_step::<1000, 1000>,
+    grid_step::<10000, 10000>,
+    grid_step::<1000, 10000>,
+    particle_step::<1000, 1000>,
+    particle_step::<10000, 10000>,
+    particle_step::<1000, 10000>
 );
 criterion_main!(benches);

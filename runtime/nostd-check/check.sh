@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # Proves reckon-runtime is no_std and heap-free: builds a freestanding binary that uses
-# it (f32, fixed-size EKF, UKF and matrix exponential), links it without any C runtime or
-# standard library, and on x86_64 Linux runs it and checks its exit status.
+# it (f32, fixed-size EKF, UKF, matrix exponential, grid and particle filters below their
+# capacity), links it without any C runtime or standard library, and on x86_64 Linux runs
+# it and checks its exit status.
 set -euo pipefail
 
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"

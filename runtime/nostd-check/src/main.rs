@@ -1,10 +1,15 @@
 //! Freestanding program that runs an `f32`, fixed-size extended and unscented Kalman
-//! filter on the runtime and exits with status 0 only if the results are sane, proving
-//! the runtime needs neither std nor a heap.
+//! filter, and a grid and a particle filter using fewer cells and particles than their
+//! capacity, on the runtime and exits with status 0 only if the results are sane,
+//! proving the runtime needs neither std nor a heap.
 #![no_std]
 #![no_main]
 
 use nalgebra::{Matrix2, OMatrix, OVector, Vector1, Vector2, U0, U1, U2};
+use reckon_runtime::grid::{
+    Axis, Grid1, GridOptions, Motion, Noise, ReadingPrediction, ResidualLikelihood,
+};
+use reckon_runtime::particle::{ParticleFilter, ParticleOptions, Pcg32, SampledMotion};
 use reckon_runtime::{KalmanFilter, MotionModel, ReadingModel, UnscentedParams, UnscentedWeights};
 
 /// Constant-velocity track with a position reading.
@@ -103,6 +108,87 @@ fn filters_work() -> bool {
         && exponential.is_ok_and(|value| (value[(0, 1)] - 1.0).abs() < 1e-6)
 }
 
+/// A cart on a line driven by a measured speed: additive noise for the grid, the speed's
+/// own noise drawn per particle for the particle filter; the reading is the position.
+struct Cart;
+
+impl Motion<f32, 1, 1> for Cart {
+    fn transition(&self, x: &Vector1<f32>, u: &Vector1<f32>, dt: f32) -> Vector1<f32> {
+        x + u * dt
+    }
+    fn noise(&self, _: &Vector1<f32>, dt: f32) -> [Noise<f32>; 1] {
+        [Noise::Normal { std_dev: 0.1 * dt }]
+    }
+    fn translation(&self, u: &Vector1<f32>, dt: f32) -> Option<Vector1<f32>> {
+        Some(u * dt)
+    }
+}
+
+/// The particle filter's view of the cart: the speed is measured with normal noise.
+struct NoisySpeedCart;
+
+impl SampledMotion<f32, 1, 1> for NoisySpeedCart {
+    fn check_noise(
+        &self,
+        _: &Vector1<f32>,
+        _: f32,
+    ) -> Result<(), reckon_runtime::grid::PredictError> {
+        Ok(())
+    }
+    fn sample_transition(
+        &self,
+        x: &Vector1<f32>,
+        u: &Vector1<f32>,
+        dt: f32,
+        rng: &mut Pcg32,
+    ) -> Vector1<f32> {
+        let speed = u[0] + rng.sample(&Noise::Normal { std_dev: 0.1 });
+        x.map(|p| p + speed * dt)
+    }
+}
+
+impl ReadingPrediction<f32, 1, 1> for Cart {
+    fn predict_reading(&self, x: &Vector1<f32>) -> Vector1<f32> {
+        *x
+    }
+    fn reading_noise(&self) -> [Noise<f32>; 1] {
+        [Noise::Normal { std_dev: 0.2 }]
+    }
+}
+
+/// Tracks a cart moving at 1 m/s from 5 m with a grid of 200 of 256 cells and 200 of
+/// 256 particles; true when both end within 0.2 m of the cart.
+fn bayes_filters_work() -> bool {
+    let Ok(axis) = Axis::<f32, 256>::with_count(0.0, 0.1, 200) else {
+        return false;
+    };
+    let start = Noise::Normal { std_dev: 0.5 };
+    let Ok(mut grid) = Grid1::from_density(axis, 5.0, start, GridOptions::default()) else {
+        return false;
+    };
+    let Ok(mut particles) = ParticleFilter::<f32, 1, 256>::from_noise_counted(
+        200,
+        Vector1::new(5.0),
+        [start],
+        Pcg32::new(7, 1),
+        ParticleOptions::default(),
+    ) else {
+        return false;
+    };
+    let (speed, reading) = (Vector1::new(1.0), ResidualLikelihood(Cart));
+    for step in 1..=20 {
+        let position = Vector1::new(5.0 + 0.1 * step as f32);
+        let ok = grid.predict(&Cart, &speed, 0.1).is_ok()
+            && grid.correct(&reading, &position).is_ok()
+            && particles.predict(&NoisySpeedCart, &speed, 0.1).is_ok()
+            && particles.correct(&reading, &position).is_ok();
+        if !ok {
+            return false;
+        }
+    }
+    (grid.mean() - 7.0).abs() < 0.2 && (particles.mean()[0] - 7.0).abs() < 0.2
+}
+
 /// Ends the process through the Linux `exit` system call (no C runtime is linked).
 fn exit(status: i32) -> ! {
     #[cfg(all(target_os = "linux", target_arch = "x86_64"))]
@@ -135,7 +221,11 @@ pub extern "C" fn _start() -> ! {
 }
 
 extern "C" fn run() -> ! {
-    exit(if filters_work() { 0 } else { 1 })
+    exit(if filters_work() && bayes_filters_work() {
+        0
+    } else {
+        1
+    })
 }
 
 #[panic_handler]
@@ -158,6 +248,26 @@ pub unsafe extern "C" fn memset(destination: *mut u8, value: i32, count: usize) 
     for offset in 0..count {
         // SAFETY: the caller guarantees `destination..destination + count` is writable.
         unsafe { core::ptr::write_volatile(destination.add(offset), value as u8) };
+    }
+    destination
+}
+
+/// `memcpy` for the linker, for the same reason as [`memset`]: the grid and particle
+/// filters copy their arrays.
+///
+/// # Safety
+/// `source` must be valid for `count` byte reads, `destination` for `count` byte writes,
+/// and the two must not overlap.
+#[unsafe(no_mangle)]
+pub unsafe extern "C" fn memcpy(destination: *mut u8, source: *const u8, count: usize) -> *mut u8 {
+    for offset in 0..count {
+        // SAFETY: the caller guarantees both ranges are valid and disjoint.
+        unsafe {
+            core::ptr::write_volatile(
+                destination.add(offset),
+                core::ptr::read_volatile(source.add(offset)),
+            )
+        };
     }
     destination
 }

@@ -1,17 +1,24 @@
 //! One grid axis and the operations along one line of cells that the 1-D and 2-D grids
 //! share: the motion kernel integrated over cells, spreading mass through it, splitting
 //! a moved cell's mass between neighbours, and the support bookkeeping.
+//!
+//! An axis stores up to `N` cells (its capacity) and uses the first [`Axis::count`] of
+//! them; everything here measures the line by the count, so the cells past it never
+//! receive mass.
 
 use nalgebra::RealField;
 
 use super::noise::{lit, to_f64, Noise};
 
-/// One axis of a grid: `N` cells of equal width starting at `lo`; cell `i` covers
-/// `[lo + i width, lo + (i + 1) width)` and its mass sits at its centre.
+/// One axis of a grid: `count <= N` cells of equal width starting at `lo`; cell `i`
+/// covers `[lo + i width, lo + (i + 1) width)` and its mass sits at its centre. `N` is
+/// the capacity of the grid's arrays; a count below it lets one instantiation serve
+/// grids whose size is only known at run time.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Axis<T, const N: usize> {
     pub(super) lo: T,
     pub(super) width: T,
+    pub(super) count: usize,
 }
 
 /// Why an axis was refused.
@@ -21,21 +28,31 @@ pub enum AxisError {
     NonFinite,
     /// The cell width is zero or negative.
     NonPositiveWidth,
-    /// The axis has no cells (`N == 0`).
+    /// The axis has no cells (a count of zero).
     NoCells,
+    /// The count exceeds the capacity `N`.
+    TooManyCells,
 }
 
 impl<T: RealField + Copy, const N: usize> Axis<T, N> {
     /// An axis of `N` cells of width `width` starting at `lo`.
     pub fn new(lo: T, width: T) -> Result<Self, AxisError> {
+        Self::with_count(lo, width, N)
+    }
+
+    /// An axis of `count` cells of width `width` starting at `lo`, stored in arrays of
+    /// capacity `N`.
+    pub fn with_count(lo: T, width: T, count: usize) -> Result<Self, AxisError> {
         if !lo.is_finite() || !width.is_finite() {
             Err(AxisError::NonFinite)
         } else if width <= T::zero() {
             Err(AxisError::NonPositiveWidth)
-        } else if N == 0 {
+        } else if count == 0 {
             Err(AxisError::NoCells)
+        } else if count > N {
+            Err(AxisError::TooManyCells)
         } else {
-            Ok(Self { lo, width })
+            Ok(Self { lo, width, count })
         }
     }
 
@@ -49,14 +66,14 @@ impl<T: RealField + Copy, const N: usize> Axis<T, N> {
         self.width
     }
 
-    /// The number of cells, `N`.
+    /// The number of cells in use (at most the capacity `N`).
     pub fn count(&self) -> usize {
-        N
+        self.count
     }
 
     /// The upper end of the last cell.
     pub fn hi(&self) -> T {
-        self.lo + self.width * lit(N as f64)
+        self.lo + self.width * lit(self.count as f64)
     }
 
     /// The centre of cell `index`.
@@ -67,7 +84,7 @@ impl<T: RealField + Copy, const N: usize> Axis<T, N> {
     /// The cell containing `x`, if any.
     pub fn cell_of(&self, x: T) -> Option<usize> {
         let position = to_f64((x - self.lo) / self.width);
-        if (0.0..N as f64).contains(&position) {
+        if (0.0..self.count as f64).contains(&position) {
             Some(position as usize)
         } else {
             None
@@ -75,11 +92,26 @@ impl<T: RealField + Copy, const N: usize> Axis<T, N> {
     }
 
     /// The mass of each cell under the density `shape` centred at `mean`, integrated
-    /// over the cell.
+    /// over the cell; zero past the count.
     pub(crate) fn cell_masses(&self, mean: T, shape: &Noise<T>) -> [T; N] {
         core::array::from_fn(|index| {
             let start = self.lo + self.width * lit::<T>(index as f64) - mean;
-            shape.mass_between(start, start + self.width)
+            if index < self.count {
+                shape.mass_between(start, start + self.width)
+            } else {
+                T::zero()
+            }
+        })
+    }
+
+    /// One in each cell in use, zero past the count.
+    pub(crate) fn ones(&self) -> [T; N] {
+        core::array::from_fn(|index| {
+            if index < self.count {
+                T::one()
+            } else {
+                T::zero()
+            }
         })
     }
 
@@ -91,7 +123,7 @@ impl<T: RealField + Copy, const N: usize> Axis<T, N> {
     /// The range of cells whose centres lie in `[lo, hi]`, if any.
     pub(crate) fn cells_centred_in(&self, lo: T, hi: T) -> Option<Span> {
         let first = libm::ceil(to_f64(self.position_in_cells(lo))).max(0.0);
-        let last = libm::floor(to_f64(self.position_in_cells(hi))).min(N as f64 - 1.0);
+        let last = libm::floor(to_f64(self.position_in_cells(hi))).min(self.count as f64 - 1.0);
         // `first <= last` is false for NaN bounds too.
         (first <= last).then_some(Span {
             first: first as usize,
@@ -130,7 +162,7 @@ impl Span {
 
 /// The motion noise integrated over cells: `weight(k)` is the probability that mass
 /// starting at a cell centre moves by `k` cells, for `k` in `first..=last` (the offsets
-/// that can land on the grid and where the noise has mass).
+/// that can land on the `cells` cells of the axis and where the noise has mass).
 pub(crate) struct LineKernel<T, const N: usize> {
     /// Offsets `0..N`.
     forward: [T; N],
@@ -138,6 +170,8 @@ pub(crate) struct LineKernel<T, const N: usize> {
     backward: [T; N],
     first: isize,
     last: isize,
+    /// The axis's cell count: mass spread past it leaves the grid.
+    cells: usize,
 }
 
 impl<T: RealField + Copy, const N: usize> LineKernel<T, N> {
@@ -146,10 +180,11 @@ impl<T: RealField + Copy, const N: usize> LineKernel<T, N> {
     /// `F((k + 1/2 - shift) width) - F((k - 1/2 - shift) width)`. Integrating (rather than
     /// sampling the density at the offset) keeps the weights summing to one for noise
     /// narrower than a cell and makes sub-cell shifts exact for mass at cell centres.
-    pub fn new(noise: &Noise<T>, shift: T, width: T) -> Self {
+    pub fn new(noise: &Noise<T>, shift: T, axis: &Axis<T, N>) -> Self {
+        let width = axis.width;
         let reach = to_f64(noise.reach() / width);
         let shift_f64 = to_f64(shift);
-        let max_offset = N as f64 - 1.0;
+        let max_offset = axis.count as f64 - 1.0;
         let first = libm::floor(shift_f64 - reach - 0.5).max(-max_offset);
         let last = libm::ceil(shift_f64 + reach + 0.5).min(max_offset);
         let mut kernel = Self {
@@ -157,6 +192,7 @@ impl<T: RealField + Copy, const N: usize> LineKernel<T, N> {
             backward: [T::zero(); N],
             first: first as isize,
             last: last as isize,
+            cells: axis.count,
         };
         let half = lit::<T>(0.5);
         for offset in kernel.first..=kernel.last {
@@ -179,11 +215,11 @@ impl<T: RealField + Copy, const N: usize> LineKernel<T, N> {
         }
     }
 
-    /// Adds `mass` at `source` spread through the kernel into `destination` (its length
-    /// is `N`); the parts that land past either end are dropped. Returns the cells
-    /// touched, if any.
+    /// Adds `mass` at `source` spread through the kernel into `destination` (at least
+    /// `cells` long); the parts that land past either end of the axis are dropped.
+    /// Returns the cells touched, if any.
     fn spread_one(&self, source: usize, mass: T, destination: &mut [T]) -> Option<Span> {
-        let count = destination.len() as isize;
+        let count = self.cells.min(destination.len()) as isize;
         let first = (source as isize + self.first).max(0);
         let last = (source as isize + self.last).min(count - 1);
         if first > last {
@@ -312,6 +348,50 @@ mod tests {
             Err(AxisError::NonFinite)
         );
         assert_eq!(Axis::<f64, 0>::new(0.0, 1.0), Err(AxisError::NoCells));
+        assert_eq!(
+            Axis::<f64, 3>::with_count(0.0, 1.0, 0),
+            Err(AxisError::NoCells)
+        );
+        assert_eq!(
+            Axis::<f64, 3>::with_count(0.0, 1.0, 4),
+            Err(AxisError::TooManyCells)
+        );
+        assert_eq!(
+            Axis::<f64, 3>::with_count(f64::NAN, 1.0, 4),
+            Err(AxisError::NonFinite)
+        );
+    }
+
+    #[test]
+    fn a_counted_axis_ends_at_its_count() {
+        let axis = Axis::<f64, 16>::with_count(-1.0, 0.5, 10).unwrap();
+        assert_eq!(axis.count(), 10);
+        assert_eq!(axis.hi(), 4.0);
+        assert_eq!(axis.cell_of(3.99), Some(9));
+        assert_eq!(axis.cell_of(4.0), None);
+        assert_eq!(
+            axis.cells_centred_in(3.0, 100.0),
+            Some(Span { first: 8, last: 9 })
+        );
+        let masses = axis.cell_masses(0.0, &Noise::Uniform { half_width: 100.0 });
+        assert!(masses[..10].iter().all(|&m| m > 0.0));
+        assert!(masses[10..].iter().all(|&m| m == 0.0));
+        assert_eq!(axis.ones()[9..11], [1.0, 0.0]);
+        assert_eq!(Axis::<f64, 16>::new(-1.0, 0.5).unwrap().count(), 16);
+    }
+
+    #[test]
+    fn kernel_and_spreading_stop_at_the_count() {
+        // A wide kernel on 5 of 8 cells reaches offsets -4..=4 only, and spreading from
+        // the last used cell drops whatever lands past it.
+        let axis = Axis::<f64, 8>::with_count(0.0, 1.0, 5).unwrap();
+        let kernel = LineKernel::new(&Noise::Uniform { half_width: 20.0 }, 0.0, &axis);
+        assert_eq!((kernel.first, kernel.last), (-4, 4));
+        let mut destination = [0.0; 8];
+        let touched = kernel.spread_one(4, 1.0, &mut destination);
+        assert_eq!(touched, Some(Span { first: 0, last: 4 }));
+        assert!(destination[5..].iter().all(|&m| m == 0.0));
+        assert!((destination.iter().sum::<f64>() - 5.0 / 40.0).abs() < 1e-15);
     }
 
     #[test]
@@ -322,12 +402,12 @@ mod tests {
         let noise = Noise::Uniform {
             half_width: 1.0_f64,
         };
-        let kernel = LineKernel::<f64, 8>::new(&noise, 0.25, 1.0);
+        let kernel = LineKernel::new(&noise, 0.25, &Axis::<f64, 8>::new(0.0, 1.0).unwrap());
         let expected = [(-1, 0.125), (0, 0.5), (1, 0.375), (2, 0.0)];
         for (offset, weight) in expected {
             assert!((kernel.weight(offset) - weight).abs() < 1e-15, "{offset}");
         }
-        let narrower = LineKernel::<f64, 8>::new(&noise, 0.25, 0.5);
+        let narrower = LineKernel::new(&noise, 0.25, &Axis::<f64, 8>::new(0.0, 0.5).unwrap());
         // Cells of 0.5: the noise covers [-1.75, 2.25] cells with density 1/4 per cell.
         let expected = [(-2, 0.0625), (-1, 0.25), (0, 0.25), (1, 0.25), (2, 0.1875)];
         for (offset, weight) in expected {

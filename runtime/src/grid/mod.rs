@@ -1,7 +1,20 @@
 //! Grid (histogram) Bayes filters in one and two dimensions: the belief is a fixed array
 //! of cell masses, prediction convolves it with the motion noise, correction multiplies
 //! it by the reading's likelihood. Also owns the model contract ([`Motion`],
-//! [`Likelihood`]) and the noise shapes ([`Noise`]) that the particle filter shares.
+//! [`Likelihood`]) and the noise shapes ([`Noise`]) that the particle filter shares:
+//! every [`Motion`] is also a [`SampledMotion`](crate::particle::SampledMotion), the
+//! particle filter's contract, which additionally admits noise entering anywhere in the
+//! transition (a grid needs the additive form, since it convolves with one kernel).
+//!
+//! # Capacity and count
+//!
+//! A grid's const parameters (`N`, or `NX` and `NY`) are the capacity of its arrays;
+//! each [`Axis`] says how many of those cells it uses ([`Axis::new`]: all of them,
+//! [`Axis::with_count`]: fewer). Generated code sizes the arrays exactly; the simulator,
+//! which learns the cell count only at run time, instantiates one large capacity and
+//! sets the count. Every step, boundary and statistic is measured by the count, and the
+//! cells past it hold zero and are never read as belief, so a counted grid gives
+//! bit-for-bit the results of a grid of exactly that size.
 //!
 //! # Discretisation
 //!
@@ -37,7 +50,9 @@
 //! cheap (`runtime/benches/bayes.rs` measures it). What remains proportional to the grid
 //! is clearing and copying arrays: a step keeps up to three grid-sized arrays and, per
 //! axis, two axis-length kernel arrays on the stack, which also sizes the stack a
-//! firmware task needs.
+//! firmware task needs. These arrays have the capacity's size, so a count far below the
+//! capacity still pays for clearing and copying the whole arrays (and their stack;
+//! the benchmarks include a grid using a tenth of its capacity).
 
 mod line;
 mod model;
@@ -49,7 +64,9 @@ pub(crate) mod test_models;
 mod two;
 
 pub use line::{Axis, AxisError};
-pub(crate) use model::{checked_ln_likelihood, validate_reading, validate_step};
+pub(crate) use model::{
+    checked_ln_likelihood, validate_reading, validate_step_and_input, validated_noise,
+};
 pub use model::{
     CorrectError, Likelihood, Motion, PredictError, ReadingPrediction, ResidualLikelihood,
 };
@@ -155,7 +172,7 @@ fn axis_kernel<T: RealField + Copy, const N: usize>(
     translation: Option<T>,
 ) -> line::LineKernel<T, N> {
     let shift = translation.map_or(T::zero(), |t| t / axis.width());
-    line::LineKernel::new(noise, shift, axis.width())
+    line::LineKernel::new(noise, shift, axis)
 }
 
 /// Checks a translation reported by the model.

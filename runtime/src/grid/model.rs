@@ -91,7 +91,8 @@ pub enum PredictError {
     NonFiniteInput,
     /// A motion-noise component was refused.
     InvalidNoise {
-        /// The state component whose noise was refused.
+        /// The state component whose noise was refused (for a model that draws its own
+        /// noise, the index of the refused noise source).
         component: usize,
         /// Why.
         reason: NoiseError,
@@ -122,6 +123,15 @@ pub(crate) fn validate_step<T: RealField + Copy, const D: usize, const U: usize>
     u: &SVector<T, U>,
     dt: T,
 ) -> Result<[Noise<T>; D], PredictError> {
+    validate_step_and_input(u, dt)?;
+    validated_noise(model, u, dt)
+}
+
+/// Checks that the step is finite and positive and the input finite.
+pub(crate) fn validate_step_and_input<T: RealField + Copy, const U: usize>(
+    u: &SVector<T, U>,
+    dt: T,
+) -> Result<(), PredictError> {
     if !dt.is_finite() {
         return Err(PredictError::NonFiniteStep);
     }
@@ -131,6 +141,15 @@ pub(crate) fn validate_step<T: RealField + Copy, const D: usize, const U: usize>
     if u.iter().any(|v| !v.is_finite()) {
         return Err(PredictError::NonFiniteInput);
     }
+    Ok(())
+}
+
+/// The motion noise of a step, each component checked.
+pub(crate) fn validated_noise<T: RealField + Copy, const D: usize, const U: usize>(
+    model: &impl Motion<T, D, U>,
+    u: &SVector<T, U>,
+    dt: T,
+) -> Result<[Noise<T>; D], PredictError> {
     let noise = model.noise(u, dt);
     for (component, n) in noise.iter().enumerate() {
         n.validate()

@@ -1,4 +1,4 @@
-//! The 1-D grid filter: `N` cells along one axis.
+//! The 1-D grid filter: the cells of one axis (up to the capacity `N`).
 
 use nalgebra::{RealField, SVector, Vector1};
 
@@ -13,8 +13,8 @@ use super::{
     GridPrediction, Mode,
 };
 
-/// A belief over one state component on `N` cells. See the [module](super) for the
-/// discretisation, the boundary policy and the cost.
+/// A belief over one state component on the axis's cells (its count, at most `N`). See
+/// the [module](super) for the discretisation, the boundary policy and the cost.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Grid1<T, const N: usize> {
     plane: Plane<T, N, 1>,
@@ -25,11 +25,13 @@ fn unit_row<T: RealField + Copy>() -> Axis<T, 1> {
     Axis {
         lo: lit(-0.5),
         width: T::one(),
+        count: 1,
     }
 }
 
 impl<T: RealField + Copy, const N: usize> Grid1<T, N> {
-    /// A belief with the given (unnormalised, non-negative) cell masses.
+    /// A belief with the given (unnormalised, non-negative) cell masses; the masses past
+    /// the axis's count must be zero ([`GridError::InvalidMass`] otherwise).
     pub fn from_masses(
         axis: Axis<T, N>,
         masses: [T; N],
@@ -40,9 +42,9 @@ impl<T: RealField + Copy, const N: usize> Grid1<T, N> {
         })
     }
 
-    /// The same mass in every cell: "anywhere on the grid".
+    /// The same mass in every cell of the axis: "anywhere on the grid".
     pub fn uniform(axis: Axis<T, N>, options: GridOptions<T>) -> Result<Self, GridError> {
-        Self::from_masses(axis, [T::one(); N], options)
+        Self::from_masses(axis, axis.ones(), options)
     }
 
     /// The density `shape` centred at `mean`, integrated over each cell.
@@ -99,9 +101,9 @@ impl<T: RealField + Copy, const N: usize> Grid1<T, N> {
         &self.plane.x
     }
 
-    /// The cell masses (they sum to one).
-    pub fn masses(&self) -> &[T; N] {
-        &self.plane.mass[0]
+    /// The masses of the axis's cells (they sum to one): `axis().count()` of them.
+    pub fn masses(&self) -> &[T] {
+        &self.plane.mass[0][..self.plane.x.count]
     }
 
     /// The first and last cells with mass; every cell outside is exactly zero.
@@ -173,7 +175,7 @@ mod tests {
     }
 
     fn bits<const N: usize>(grid: &Grid1<f64, N>) -> [u64; N] {
-        grid.masses().map(f64::to_bits)
+        grid.plane.mass[0].map(f64::to_bits)
     }
 
     fn drift(noise: Noise<f64>) -> Drift<f64> {
@@ -709,6 +711,279 @@ mod tests {
             .expect("consistent");
         assert!((grid.mean() - 3.49329).abs() < 1e-4);
         assert!((grid.variance() - 0.328859).abs() < 1e-4);
+    }
+
+    /// One step of the counted-grid scenarios.
+    #[derive(Clone, Copy)]
+    enum Step {
+        /// Drift by `velocity` (1 s) seen as a translation.
+        Translate { velocity: f64, noise: Noise<f64> },
+        /// Every cell pushed through `map`.
+        Push {
+            map: fn(f64) -> f64,
+            noise: Noise<f64>,
+        },
+        /// A direct position reading.
+        Read { z: f64, noise: Noise<f64> },
+        /// A distance to the next marker of the invented track.
+        Marker { z: f64 },
+    }
+
+    /// What a step returned, as bits so that equality is bit equality.
+    #[derive(Debug, PartialEq)]
+    enum Outcome {
+        Predicted(Result<u64, PredictError>),
+        Corrected(Result<u64, CorrectError>),
+    }
+
+    fn apply<const N: usize>(grid: &mut Grid1<f64, N>, step: Step) -> Outcome {
+        let predicted = |result: Result<GridPrediction<f64>, PredictError>| {
+            Outcome::Predicted(result.map(|p| p.mass_lost.to_bits()))
+        };
+        let corrected = |result: Result<GridCorrection<f64>, CorrectError>| {
+            Outcome::Corrected(result.map(|c| c.ln_evidence.to_bits()))
+        };
+        match step {
+            Step::Translate { velocity, noise } => {
+                predicted(grid.predict(&drift(noise), &Vector1::new(velocity), 1.0))
+            }
+            Step::Push { map, noise } => {
+                let motion = Mapped {
+                    map: |x: &SVector<f64, 1>| x.map(map),
+                    noise,
+                    calls: Cell::new(0),
+                };
+                predicted(grid.predict(&motion, &SVector::zeros(), 1.0))
+            }
+            Step::Read { z, noise } => {
+                corrected(grid.correct(&ResidualLikelihood(Direct { noise }), &Vector1::new(z)))
+            }
+            Step::Marker { z } => {
+                let track = MarkerTrack {
+                    markers: MARKERS,
+                    noise: normal(0.15),
+                };
+                corrected(grid.correct(&track, &Vector1::new(z)))
+            }
+        }
+    }
+
+    /// Asserts that a counted grid holds bit for bit the belief of an exactly sized
+    /// one, and nothing past its count; `context` is the step (`None` for the prior).
+    fn assert_same_belief<const A: usize, const B: usize>(
+        counted: &Grid1<f64, A>,
+        exact: &Grid1<f64, B>,
+        context: Option<usize>,
+    ) {
+        assert!(
+            counted
+                .masses()
+                .iter()
+                .map(|m| m.to_bits())
+                .eq(exact.masses().iter().map(|m| m.to_bits())),
+            "{context:?}"
+        );
+        let count = counted.axis().count();
+        assert!(counted.plane.mass[0][count..].iter().all(|&m| m == 0.0));
+        assert_eq!(counted.support(), exact.support(), "{context:?}");
+        assert_eq!(
+            counted.mean().to_bits(),
+            exact.mean().to_bits(),
+            "{context:?}"
+        );
+        let variances = (counted.variance(), exact.variance());
+        assert_eq!(variances.0.to_bits(), variances.1.to_bits(), "{context:?}");
+        let empty = Mode {
+            cell: [0],
+            centre: Vector1::new(0.0),
+            mass: 0.0,
+        };
+        let (mut counted_modes, mut exact_modes) = ([empty; 8], [empty; 8]);
+        assert_eq!(
+            counted.modes(0.01, &mut counted_modes),
+            exact.modes(0.01, &mut exact_modes),
+            "{context:?}"
+        );
+        assert_eq!(counted_modes, exact_modes, "{context:?}");
+        let (lo, hi) = (exact.axis().lo() + 3.0, exact.axis().hi() - 3.0);
+        assert_eq!(counted.axis().hi(), exact.axis().hi());
+        assert_eq!(
+            counted.probability_between(lo, hi).to_bits(),
+            exact.probability_between(lo, hi).to_bits(),
+            "{context:?}"
+        );
+    }
+
+    /// Runs `script` on a grid of capacity 1024 using 800 cells and on one of exactly
+    /// 800, both built by `prior`, comparing every outcome and the belief after it.
+    fn assert_counted_grid_matches(
+        prior: impl Fn(f64, f64) -> (Option<[f64; 800]>, Option<(f64, Noise<f64>)>),
+        lo: f64,
+        width: f64,
+        options: GridOptions<f64>,
+        script: &[Step],
+    ) {
+        let counted_axis = Axis::<f64, 1024>::with_count(lo, width, 800).expect("valid axis");
+        let exact_axis = Axis::<f64, 800>::new(lo, width).expect("valid axis");
+        let (masses, density) = prior(lo, width);
+        let (mut counted, mut exact) = match (masses, density) {
+            (Some(masses), _) => {
+                let mut padded = [0.0; 1024];
+                padded[..800].copy_from_slice(&masses);
+                (
+                    Grid1::from_masses(counted_axis, padded, options),
+                    Grid1::from_masses(exact_axis, masses, options),
+                )
+            }
+            (None, Some((mean, shape))) => (
+                Grid1::from_density(counted_axis, mean, shape, options),
+                Grid1::from_density(exact_axis, mean, shape, options),
+            ),
+            (None, None) => (
+                Grid1::uniform(counted_axis, options),
+                Grid1::uniform(exact_axis, options),
+            ),
+        };
+        let (counted, exact) = (
+            counted.as_mut().expect("valid prior"),
+            exact.as_mut().expect("valid prior"),
+        );
+        assert_same_belief(counted, exact, None);
+        for (index, &step) in script.iter().enumerate() {
+            let outcome = apply(counted, step);
+            assert_eq!(outcome, apply(exact, step), "step {index}");
+            assert_same_belief(counted, exact, Some(index));
+        }
+    }
+
+    #[test]
+    fn a_counted_grid_matches_an_exactly_sized_one() {
+        let wave = |x: f64| x + 0.6 * x.sin() + 0.3;
+        let squeeze = |x: f64| 0.8 * x + 1.0;
+        let onto_the_edge = |x: f64| x + 14.0;
+        let off_the_grid = |x: f64| x + 100.0;
+        let nowhere = Noise::Uniform { half_width: 0.5 };
+        let density = |mean, std_dev| move |_, _| (None, Some((mean, normal(std_dev))));
+        // Translation, nonlinear pushes and readings, then the boundary: a step that
+        // drops half the belief past the last used cell, one that drops it all, and an
+        // impossible reading.
+        let travel = [
+            Step::Translate {
+                velocity: 0.37,
+                noise: normal(0.3),
+            },
+            Step::Push {
+                map: wave,
+                noise: Noise::Triangle { half_width: 0.4 },
+            },
+            Step::Read {
+                z: -3.5,
+                noise: normal(0.4),
+            },
+            Step::Push {
+                map: squeeze,
+                noise: normal(0.2),
+            },
+            Step::Translate {
+                velocity: 15.0,
+                noise: Noise::Uniform { half_width: 1.5 },
+            },
+            Step::Push {
+                map: onto_the_edge,
+                noise: normal(1.0),
+            },
+            Step::Read {
+                z: 19.0,
+                noise: normal(2.0),
+            },
+            Step::Push {
+                map: off_the_grid,
+                noise: normal(0.1),
+            },
+            Step::Read {
+                z: -30.0,
+                noise: nowhere,
+            },
+        ];
+        for options in [GridOptions::default(), keep_tails()] {
+            assert_counted_grid_matches(density(-5.0, 0.5), -20.0, 0.05, options, &travel);
+        }
+        // Mass leaving past the last used cell through a wide kernel only.
+        let spreading = [Step::Translate {
+            velocity: 0.0,
+            noise: normal(3.0),
+        }; 3];
+        assert_counted_grid_matches(density(17.0, 0.5), -20.0, 0.05, keep_tails(), &spreading);
+        // A uniform prior split into several modes by identical markers, then moved.
+        let markers = [
+            Step::Marker { z: 1.8 },
+            Step::Translate {
+                velocity: 0.9,
+                noise: normal(0.1),
+            },
+            Step::Marker { z: 0.9 },
+        ];
+        let uniform = |_, _| (None, None);
+        assert_counted_grid_matches(uniform, 0.0, 0.05, GridOptions::default(), &markers);
+        // Raw masses with a plateau and the last used cell holding mass.
+        let bumps = |_, _| {
+            let mut masses = [0.0; 800];
+            masses[100..104].copy_from_slice(&[1.0, 3.0, 3.0, 1.0]);
+            masses[790..].copy_from_slice(&[0.5; 10]);
+            (Some(masses), None)
+        };
+        let nudge = [
+            Step::Translate {
+                velocity: 0.02,
+                noise: normal(0.01),
+            },
+            Step::Translate {
+                velocity: 0.2,
+                noise: Noise::Uniform { half_width: 0.1 },
+            },
+        ];
+        assert_counted_grid_matches(bumps, 0.0, 0.05, keep_tails(), &nudge);
+    }
+
+    #[test]
+    fn a_counted_grid_refuses_mass_past_its_count() {
+        let axis = Axis::<f64, 12>::with_count(0.0, 1.0, 10).expect("valid axis");
+        let mut masses = [1.0; 12];
+        assert_eq!(
+            Grid1::from_masses(axis, masses, GridOptions::default()),
+            Err(GridError::InvalidMass)
+        );
+        masses[10..].fill(0.0);
+        let grid = Grid1::from_masses(axis, masses, GridOptions::default()).expect("valid");
+        assert_eq!(grid.masses().len(), 10);
+        let uniform = Grid1::uniform(axis, GridOptions::default()).expect("valid");
+        assert_eq!(grid, uniform);
+        // The threshold's bound is 1 / count: 0.095 is below 1/10 but not 1/12.
+        assert!(Grid1::uniform(axis, GridOptions { skip_below: 0.095 }).is_ok());
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(48))]
+        #[test]
+        fn counted_grids_step_like_exactly_sized_ones(
+            mean in -15.0..15.0_f64,
+            spread in 0.05..3.0_f64,
+            velocity in -8.0..8.0_f64,
+            noise_width in 0.01..3.0_f64,
+            shape in 0..3_usize,
+            z in -20.0..20.0_f64,
+            skip in prop_oneof![Just(0.0), Just(1e-12), Just(1e-4)],
+        ) {
+            let noise = [normal(noise_width), Noise::Triangle { half_width: noise_width }, Noise::Uniform { half_width: noise_width }][shape];
+            let script = [
+                Step::Translate { velocity, noise },
+                Step::Push { map: |x| x + 0.6 * x.sin() - 0.1 * x, noise },
+                Step::Read { z, noise: normal(spread) },
+                Step::Translate { velocity: -velocity, noise },
+            ];
+            let prior = move |_, _| (None, Some((mean, normal(spread))));
+            assert_counted_grid_matches(prior, -20.0, 0.05, GridOptions { skip_below: skip }, &script);
+        }
     }
 
     proptest! {

@@ -4,8 +4,10 @@
 //! statistics of the belief.
 //!
 //! Invariants kept by every method: the masses are finite, non-negative and sum to one
-//! (up to round-off); every cell outside `support` is exactly zero; no cell holds less
-//! than the pruning threshold. A rejected step leaves the masses bit-identical.
+//! (up to round-off); every cell outside `support` is exactly zero, in particular every
+//! cell past an axis's count (the arrays have the capacity `NX x NY`, the belief lives
+//! on the first `x.count() x y.count()` cells); no cell holds less than the pruning
+//! threshold. A rejected step leaves the masses bit-identical.
 
 use nalgebra::RealField;
 
@@ -98,28 +100,31 @@ fn settle<T: RealField + Copy, const NX: usize>(
 }
 
 impl<T: RealField + Copy, const NX: usize, const NY: usize> Plane<T, NX, NY> {
-    /// A belief from (unnormalised) masses.
+    /// A belief from (unnormalised) masses. Cells past an axis's count must hold zero:
+    /// a mass there is refused rather than silently dropped.
     pub fn new(
         x: Axis<T, NX>,
         y: Axis<T, NY>,
         mut mass: [[T; NX]; NY],
         options: GridOptions<T>,
     ) -> Result<Self, GridError> {
-        let cells: T = nalgebra::convert((NX * NY) as f64);
+        let cells: T = nalgebra::convert((x.count * y.count) as f64);
         let skip_below = options.skip_below;
         if !(skip_below >= T::zero() && skip_below * cells < T::one()) {
             return Err(GridError::InvalidThreshold);
         }
-        if mass
-            .as_flattened()
-            .iter()
-            .any(|&m| !m.is_finite() || m < T::zero())
-        {
+        let in_use = |row: usize, col: usize| row < y.count && col < x.count;
+        let refused = mass.iter().enumerate().any(|(row, masses)| {
+            masses.iter().enumerate().any(|(col, &m)| {
+                !m.is_finite() || m < T::zero() || (m != T::zero() && !in_use(row, col))
+            })
+        });
+        if refused {
             return Err(GridError::InvalidMass);
         }
         let full = Support {
-            rows: Span::full(NY),
-            cols: Span::full(NX),
+            rows: Span::full(y.count),
+            cols: Span::full(x.count),
         };
         let (support, _) = settle(&mut mass, full, skip_below).ok_or(GridError::NoMass)?;
         Ok(Self {
@@ -152,8 +157,8 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Plane<T, NX, NY> {
                 .ok_or(PredictError::NonFiniteTransition)?;
             let split_x = Split::at(self.x.position_in_cells(to_x));
             let split_y = Split::at(self.y.position_in_cells(to_y));
-            for (target_row, share_y) in split_y.shares(NY) {
-                for (target_col, share_x) in split_x.shares(NX) {
+            for (target_row, share_y) in split_y.shares(self.y.count) {
+                for (target_col, share_x) in split_x.shares(self.x.count) {
                     moved[target_row][target_col] += mass * share_y * share_x;
                     moved_support = grow(moved_support, Support::single(target_row, target_col));
                 }
@@ -322,8 +327,9 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Plane<T, NX, NY> {
 
     fn is_local_maximum(&self, row: usize, col: usize) -> bool {
         let mass = self.mass[row][col];
-        let rows = row.saturating_sub(1)..=(row + 1).min(NY - 1);
-        rows.flat_map(|r| (col.saturating_sub(1)..=(col + 1).min(NX - 1)).map(move |c| (r, c)))
+        let rows = row.saturating_sub(1)..=(row + 1).min(self.y.count - 1);
+        let last_col = (col + 1).min(self.x.count - 1);
+        rows.flat_map(|r| (col.saturating_sub(1)..=last_col).map(move |c| (r, c)))
             .filter(|&cell| cell != (row, col))
             .all(|(r, c)| {
                 let earlier = (r, c) < (row, col);

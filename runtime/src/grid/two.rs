@@ -1,4 +1,5 @@
-//! The 2-D grid filter: `NX x NY` cells stored row by row in one flat array.
+//! The 2-D grid filter: the cells of two axes (up to the capacity `NX x NY`) stored row
+//! by row in one flat array.
 
 use nalgebra::{Matrix2, RealField, SVector, Vector2};
 
@@ -13,15 +14,18 @@ use super::{
     GridPrediction, Mode,
 };
 
-/// A belief over two state components `(x, y)` on `NX x NY` cells. See the
-/// [module](super) for the discretisation, the boundary policy and the cost.
+/// A belief over two state components `(x, y)` on the cells of two axes (their counts,
+/// at most `NX` and `NY`). See the [module](super) for the discretisation, the boundary
+/// policy and the cost.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Grid2<T, const NX: usize, const NY: usize> {
     plane: Plane<T, NX, NY>,
 }
 
 impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
-    /// A belief with the given (unnormalised, non-negative) masses, `masses[iy][ix]`.
+    /// A belief with the given (unnormalised, non-negative) masses, `masses[iy][ix]`;
+    /// the masses past either axis's count must be zero ([`GridError::InvalidMass`]
+    /// otherwise).
     pub fn from_masses(
         x: Axis<T, NX>,
         y: Axis<T, NY>,
@@ -33,13 +37,15 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
         })
     }
 
-    /// The same mass in every cell.
+    /// The same mass in every cell of the axes.
     pub fn uniform(
         x: Axis<T, NX>,
         y: Axis<T, NY>,
         options: GridOptions<T>,
     ) -> Result<Self, GridError> {
-        Self::from_masses(x, y, [[T::one(); NX]; NY], options)
+        let (cols, rows) = (x.ones(), y.ones());
+        let masses = rows.map(|row| cols.map(|col| row * col));
+        Self::from_masses(x, y, masses, options)
     }
 
     /// Independent densities `shape[0]` along x and `shape[1]` along y centred at
@@ -105,7 +111,8 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
         (&self.plane.x, &self.plane.y)
     }
 
-    /// The masses, row by row: cell `(ix, iy)` at index `iy * NX + ix`.
+    /// The stored masses, row by row: cell `(ix, iy)` at index `iy * NX + ix` (`NX` the
+    /// capacity); the cells past either axis's count are zero.
     pub fn masses(&self) -> &[T] {
         self.plane.mass.as_flattened()
     }
@@ -349,5 +356,170 @@ mod tests {
         assert!((grid.mean() - Vector2::new(1.0, 1.5)).norm() < 1e-3);
         let total: f64 = grid.masses().iter().sum();
         assert!((total - 1.0).abs() < 1e-12);
+    }
+
+    /// One step of the counted-grid scenario.
+    #[derive(Clone, Copy)]
+    enum Step {
+        /// Drift by `velocity` (1 s) seen as a translation.
+        Translate(Vector2<f64>),
+        /// Rotation about the origin by the angle (rad), pushed cell by cell.
+        Rotate(f64),
+        /// A direct position reading with normal noise of 0.3.
+        Read(Vector2<f64>),
+    }
+
+    /// What a step returned, as bits so that equality is bit equality.
+    #[derive(Debug, PartialEq)]
+    enum Outcome {
+        Predicted(Result<u64, PredictError>),
+        Corrected(Result<u64, CorrectError>),
+    }
+
+    fn apply<const NX: usize, const NY: usize>(
+        grid: &mut Grid2<f64, NX, NY>,
+        step: Step,
+    ) -> Outcome {
+        let predicted = |result: Result<GridPrediction<f64>, PredictError>| {
+            Outcome::Predicted(result.map(|p| p.mass_lost.to_bits()))
+        };
+        match step {
+            Step::Translate(velocity) => {
+                let motion = Drift {
+                    noise: normal(0.15),
+                    as_translation: true,
+                };
+                predicted(grid.predict(&motion, &velocity, 1.0))
+            }
+            Step::Rotate(angle) => {
+                let (cos, sin) = (angle.cos(), angle.sin());
+                let motion = Mapped {
+                    map: |p: &SVector<f64, 2>| {
+                        Vector2::new(cos * p[0] - sin * p[1], sin * p[0] + cos * p[1])
+                    },
+                    noise: Noise::Triangle { half_width: 0.2 },
+                    calls: Cell::new(0),
+                };
+                predicted(grid.predict(&motion, &SVector::zeros(), 1.0))
+            }
+            Step::Read(z) => {
+                let reading = ResidualLikelihood(Direct { noise: normal(0.3) });
+                Outcome::Corrected(grid.correct(&reading, &z).map(|c| c.ln_evidence.to_bits()))
+            }
+        }
+    }
+
+    /// Asserts that a counted grid holds bit for bit the belief of an exactly sized
+    /// one, and nothing past its counts; `context` is the step (`None` for the prior).
+    fn assert_same_belief<const A: usize, const B: usize, const C: usize, const E: usize>(
+        counted: &Grid2<f64, A, B>,
+        exact: &Grid2<f64, C, E>,
+        context: Option<usize>,
+    ) {
+        for iy in 0..B {
+            for ix in 0..A {
+                let (mass, expected) = (counted.mass_at(ix, iy), exact.mass_at(ix, iy));
+                assert_eq!(
+                    mass.to_bits(),
+                    expected.to_bits(),
+                    "{context:?} ({ix}, {iy})"
+                );
+            }
+        }
+        assert_eq!(counted.support(), exact.support(), "{context:?}");
+        let bits = |m: Matrix2<f64>| m.map(f64::to_bits);
+        assert_eq!(
+            counted.mean().map(f64::to_bits),
+            exact.mean().map(f64::to_bits)
+        );
+        assert_eq!(
+            bits(counted.covariance()),
+            bits(exact.covariance()),
+            "{context:?}"
+        );
+        let empty = Mode {
+            cell: [0, 0],
+            centre: Vector2::zeros(),
+            mass: 0.0,
+        };
+        let (mut counted_modes, mut exact_modes) = ([empty; 8], [empty; 8]);
+        assert_eq!(
+            counted.modes(0.01, &mut counted_modes),
+            exact.modes(0.01, &mut exact_modes),
+            "{context:?}"
+        );
+        assert_eq!(counted_modes, exact_modes, "{context:?}");
+        let region = ((-1.0, 1.2), (-0.5, 1.5));
+        assert_eq!(
+            counted.probability_in(region.0, region.1).to_bits(),
+            exact.probability_in(region.0, region.1).to_bits()
+        );
+    }
+
+    #[test]
+    fn a_counted_grid_matches_an_exactly_sized_one() {
+        // 40 x 30 cells used of a capacity of 48 x 40: a translation, a rotation, a
+        // reading, then steps that push part and then all of the belief past the last
+        // used cells of both axes.
+        let script = [
+            Step::Translate(Vector2::new(0.3, -0.2)),
+            Step::Rotate(0.5),
+            Step::Read(Vector2::new(0.2, 0.1)),
+            Step::Translate(Vector2::new(1.7, 1.3)),
+            Step::Read(Vector2::new(1.9, 1.4)),
+            Step::Translate(Vector2::new(3.0, 0.0)),
+            Step::Read(Vector2::new(-30.0, 0.0)),
+        ];
+        let (lo, width) = ((-2.0, -1.5), 0.1);
+        let counted_axes = (
+            Axis::<f64, 48>::with_count(lo.0, width, 40).expect("valid axis"),
+            Axis::<f64, 40>::with_count(lo.1, width, 30).expect("valid axis"),
+        );
+        let exact_axes = (
+            Axis::<f64, 40>::new(lo.0, width).expect("valid axis"),
+            Axis::<f64, 30>::new(lo.1, width).expect("valid axis"),
+        );
+        let mean = Vector2::new(-0.5, 0.2);
+        let shape = [normal(0.4), Noise::Triangle { half_width: 0.6 }];
+        for options in [GridOptions::default(), GridOptions { skip_below: 0.0 }] {
+            let priors = [
+                (
+                    Grid2::from_density(counted_axes.0, counted_axes.1, mean, shape, options),
+                    Grid2::from_density(exact_axes.0, exact_axes.1, mean, shape, options),
+                ),
+                (
+                    Grid2::uniform(counted_axes.0, counted_axes.1, options),
+                    Grid2::uniform(exact_axes.0, exact_axes.1, options),
+                ),
+            ];
+            for (counted, exact) in priors {
+                let mut counted = counted.expect("valid prior");
+                let mut exact = exact.expect("valid prior");
+                assert_same_belief(&counted, &exact, None);
+                for (index, &step) in script.iter().enumerate() {
+                    let outcome = apply(&mut counted, step);
+                    assert_eq!(outcome, apply(&mut exact, step), "step {index}");
+                    assert_same_belief(&counted, &exact, Some(index));
+                    let stored = &counted.plane.mass;
+                    assert!(stored[30..].iter().flatten().all(|&m| m == 0.0));
+                    assert!(stored.iter().all(|row| row[40..].iter().all(|&m| m == 0.0)));
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn a_counted_grid_refuses_mass_past_its_counts() {
+        let x = Axis::<f64, 4>::with_count(0.0, 1.0, 3).expect("valid axis");
+        let y = Axis::<f64, 3>::with_count(0.0, 1.0, 2).expect("valid axis");
+        let mut masses = [[1.0, 1.0, 1.0, 0.0], [1.0, 1.0, 1.0, 0.0], [0.0; 4]];
+        let uniform = Grid2::uniform(x, y, GridOptions::default()).expect("valid");
+        let given = Grid2::from_masses(x, y, masses, GridOptions::default()).expect("valid");
+        assert_eq!(uniform, given);
+        masses[2][0] = 1.0;
+        assert_eq!(
+            Grid2::from_masses(x, y, masses, GridOptions::default()),
+            Err(GridError::InvalidMass)
+        );
     }
 }

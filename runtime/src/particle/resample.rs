@@ -1,31 +1,33 @@
-//! Systematic resampling: one uniform offset, `N` equally spaced pointers into the
+//! Systematic resampling: one uniform offset, equally spaced pointers into the
 //! cumulative weights.
 
 use nalgebra::RealField;
 
 use crate::grid::lit;
 
-/// Writes into `chosen` the index of the particle each of the `N` new particles copies.
+/// Writes into each slot of `chosen` the index (into `weights`) of the particle that new
+/// particle copies.
 ///
-/// Pointer `k` sits at `(k + offset) / N` of the total weight, so particle `i` is chosen
-/// `floor(N w_i)` or `ceil(N w_i)` times (`w_i` its normalised weight): the expected
-/// count with the least spread, and `O(N)` work. `offset` is a uniform draw from
-/// `[0, 1)`; the weights need not be normalised but must be non-negative with a
-/// positive sum. Particles of zero weight are never chosen; `chosen` is sorted.
-pub fn systematic_resample<T: RealField + Copy, const N: usize>(
-    weights: &[T; N],
-    offset: T,
-    chosen: &mut [usize; N],
-) {
+/// With `n = chosen.len()`, pointer `k` sits at `(k + offset) / n` of the total weight,
+/// so particle `i` is chosen `floor(n w_i)` or `ceil(n w_i)` times (`w_i` its normalised
+/// weight): the expected count with the least spread, and `O(n + weights.len())` work.
+/// `offset` is a uniform draw from `[0, 1)`; the weights need not be normalised but must
+/// be non-negative with a positive sum. Particles of zero weight are never chosen;
+/// `chosen` is sorted. With no weights there is nothing to choose and `chosen` is left
+/// as it is.
+pub fn systematic_resample<T: RealField + Copy>(weights: &[T], offset: T, chosen: &mut [usize]) {
+    let Some((&first, _)) = weights.split_first() else {
+        return;
+    };
     let total = weights.iter().fold(T::zero(), |sum, &w| sum + w);
-    let spacing = total / lit(N as f64);
+    let spacing = total / lit(chosen.len() as f64);
     let mut index = 0;
-    let mut cumulative = weights.first().copied().unwrap_or_else(T::zero);
+    let mut cumulative = first;
     for (k, slot) in chosen.iter_mut().enumerate() {
         let pointer = (lit::<T>(k as f64) + offset) * spacing;
         // The pointer stays below `total`, which the cumulative sum reaches at the last
         // particle of positive weight (same summation order), so `index` never passes it.
-        while pointer >= cumulative && index + 1 < N {
+        while pointer >= cumulative && index + 1 < weights.len() {
             index += 1;
             cumulative += weights[index];
         }

@@ -1,6 +1,6 @@
 //! Generates the estimators the end-to-end tests run: every demo spec in `specs/`
 //! (and the test specs in `tests/specs/`) through the public build-script API, with
-//! each method and scalar type the spec supports, into `OUT_DIR`.
+//! each method and scalar type the spec supports (grid and particle included), into `OUT_DIR`.
 
 use std::path::Path;
 
@@ -13,16 +13,24 @@ const EKF_F64: Variant = ("_ekf_f64", Method::Ekf, Scalar::F64);
 const EKF_F32: Variant = ("_ekf_f32", Method::Ekf, Scalar::F32);
 const UKF_F64: Variant = ("_ukf_f64", Method::Ukf, Scalar::F64);
 const KF_F64: Variant = ("_kf_f64", Method::Kf, Scalar::F64);
+const GRID_F64: Variant = ("_grid_f64", Method::Grid, Scalar::F64);
+const GRID_F32: Variant = ("_grid_f32", Method::Grid, Scalar::F32);
+const PARTICLE_F64: Variant = ("_particle_f64", Method::Particle, Scalar::F64);
+const PARTICLE_F32: Variant = ("_particle_f32", Method::Particle, Scalar::F32);
 
 /// Every spec with the variants built from it. `tests/lib.rs` includes each output.
 const SPECS: &[(&str, &[Variant])] = &[
     (
         "../specs/canal_ferry.reckon",
-        &[EKF_F64, EKF_F32, UKF_F64, KF_F64],
+        &[EKF_F64, EKF_F32, UKF_F64, KF_F64, PARTICLE_F64],
     ),
     (
         "../specs/goods_lift.reckon",
         &[EKF_F64, EKF_F32, UKF_F64, KF_F64],
+    ),
+    (
+        "../specs/marker_track.reckon",
+        &[EKF_F64, GRID_F64, GRID_F32, PARTICLE_F64, PARTICLE_F32],
     ),
     ("../specs/pallet_robot.reckon", &[EKF_F64, EKF_F32, UKF_F64]),
     (
@@ -36,20 +44,16 @@ const SPECS: &[(&str, &[Variant])] = &[
     ("specs/every_function.reckon", &[EKF_F64, EKF_F32, UKF_F64]),
     ("specs/units_declared.reckon", &[EKF_F64, UKF_F64]),
     ("specs/units_si.reckon", &[EKF_F64, UKF_F64]),
+    ("specs/dock_grid.reckon", &[GRID_F64, GRID_F32, PARTICLE_F64]),
 ];
 
-/// Demo specs written for the grid and particle methods: their noise is not Gaussian,
-/// so no Kalman variant exists, and those generators are not written yet.
-const NOT_KALMAN: &[&str] = &["../specs/marker_track.reckon"];
-
 fn main() {
-    // A new demo spec must be listed above (or in NOT_KALMAN), so none goes untested.
+    // A new demo spec must be listed above, so none goes untested.
     println!("cargo:rerun-if-changed=../specs");
     if let Ok(entries) = std::fs::read_dir("../specs") {
         for entry in entries.flatten() {
             let path = format!("../specs/{}", entry.file_name().to_string_lossy());
-            let listed =
-                SPECS.iter().any(|(spec, _)| *spec == path) || NOT_KALMAN.contains(&path.as_str());
+            let listed = SPECS.iter().any(|(spec, _)| *spec == path);
             assert!(
                 !path.ends_with(".reckon") || listed,
                 "demo spec {path} is not listed in tests/build.rs"

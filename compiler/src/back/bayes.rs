@@ -19,6 +19,13 @@
 //! must not depend on the state, each source may reach one state only (the axes' noises
 //! are independent), and a state may combine several sources only when all are normal.
 //! Everything else is refused with `E0606`; the particle method has none of these limits.
+//!
+//! # Ranges
+//!
+//! A state's range (`in lo .. hi`) is where the state can be. The grid covers exactly
+//! that and drops mass moved past its ends; the particle filter gives a particle outside
+//! it zero likelihood at the next correction ([`BayesPlan::support`]), the same rule
+//! applied one step later.
 
 use std::collections::HashMap;
 
@@ -181,6 +188,9 @@ pub struct BayesPlan {
     pub sources: Vec<Source>,
     /// `x_next(x, u, w, dt)` per state, with every source's sample `w` in it.
     pub sampled_transition: Vec<NodeId>,
+    /// Per state, the range the state must lie in (particle method; the grid's cells
+    /// are always inside it).
+    pub support: Vec<Option<(f64, f64)>>,
     /// Per sensor, the spread of each reading component's noise (the residuals are
     /// `lowered.sensors[s].residual`, wrapped where the component is an angle).
     pub reading_noise: Vec<Vec<Spread>>,
@@ -269,8 +279,18 @@ pub fn plan(model: &Model, options: &EstimatorOptions) -> Result<BayesPlan, Vec<
             (None, None) => None,
         })
         .collect();
+    let support = if grid.is_some() {
+        vec![None; model.states.len()]
+    } else {
+        model
+            .states
+            .iter()
+            .map(|state| state.range.map(|range| (range.lo, range.hi)))
+            .collect()
+    };
     Ok(BayesPlan {
         lowered,
+        support,
         sources,
         sampled_transition,
         reading_noise,

@@ -266,6 +266,9 @@ struct MarkerSensor<'a> {
 }
 impl Likelihood<f64, 1, 2> for MarkerSensor<'_> {
     fn ln_likelihood(&self, x: &SVector<f64, 1>, z: &SVector<f64, 2>) -> f64 {
+        if !(0.0_f64 <= x[0] && x[0] <= 40.0_f64) {
+            return f64::NEG_INFINITY;
+        }
         let [[z0, z1]] = z.data.0;
         let [[x0]] = x.data.0;
         let t21 = x0 * core::f64::consts::TAU / 2.0_f64;

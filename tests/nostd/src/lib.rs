@@ -17,3 +17,18 @@ pub mod survey_launch {
 pub mod canal_ferry {
     include!(concat!(env!("OUT_DIR"), "/canal_ferry_kf_f64.rs"));
 }
+
+/// Inspection trolley between identical markers, 1-D grid filter in `f32`.
+pub mod marker_track_grid {
+    include!(concat!(env!("OUT_DIR"), "/marker_track_grid_f32.rs"));
+}
+
+/// Float in a dock basin, 2-D grid filter in `f32`.
+pub mod dock_grid {
+    include!(concat!(env!("OUT_DIR"), "/dock_grid_grid_f32.rs"));
+}
+
+/// Inspection trolley, particle filter in `f32`.
+pub mod marker_track_particle {
+    include!(concat!(env!("OUT_DIR"), "/marker_track_particle_f32.rs"));
+}

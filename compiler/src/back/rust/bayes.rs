@@ -406,7 +406,23 @@ fn sensor(ctx: &Context, plan: &BayesPlan, index: usize, traits: &mut MathTraits
     } else {
         (quote!(args: [#t; #k],), quote!(let args = &self.args;))
     };
-    let x = param("x", !reads.states.is_empty());
+    // Particles outside a state's range are impossible (see `BayesPlan::support`).
+    let guards: Vec<TokenStream> = plan
+        .support
+        .iter()
+        .enumerate()
+        .filter_map(|(state, range)| {
+            let (lo, hi) = range.as_ref()?;
+            let (lo, hi) = (ctx.number(*lo), ctx.number(*hi));
+            let index = names_usize(state);
+            Some(quote! {
+                if !(#lo <= x[#index] && x[#index] <= #hi) {
+                    return #t::NEG_INFINITY;
+                }
+            })
+        })
+        .collect();
+    let x = param("x", !reads.states.is_empty() || !guards.is_empty());
     let z = param("z", block.symbols.iter().any(|s| matches!(s, Symbol::Reading(_))));
     let doc = doc(format!(
         "The likelihood of a reading of sensor `{}`, for the runtime's filters.",
@@ -424,6 +440,7 @@ fn sensor(ctx: &Context, plan: &BayesPlan, index: usize, traits: &mut MathTraits
         }
         impl Likelihood<#t, #d, #m> for #ty<'_> {
             fn ln_likelihood(&self, #x: &SVector<#t, #d>, #z: &SVector<#t, #m>) -> #t {
+                #(#guards)*
                 #args_binding
                 #readings
                 #body

@@ -1,4 +1,5 @@
 //! End-to-end and external-reference tests.
+mod bayes;
 mod drive;
 mod endurance;
 mod faults;

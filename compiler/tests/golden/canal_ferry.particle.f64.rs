@@ -7,9 +7,10 @@
 // engineering practice that apply to your vehicle and domain.
 
 use reckon_runtime::nalgebra::{ComplexField, SMatrix, SVector};
-use reckon_runtime::grid::{CorrectError, Likelihood, Noise, PredictError, SampledMotion};
+use reckon_runtime::grid::{CorrectError, Likelihood, Noise, PredictError};
 use reckon_runtime::particle::{
     ParticleCorrection, ParticleError, ParticleFilter, ParticleOptions, Pcg32,
+    SampledMotion,
 };
 /// A state of `canal_ferry`: the estimate's mean, or per-component standard deviations, in SI units.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]

@@ -158,19 +158,22 @@ impl Estimator {
     }
     /// The belief's mean (SI).
     pub fn state(&self) -> State {
-        State::from_array([self.belief.mean()])
+        State::from_vector(&SVector::from([self.belief.mean()]))
     }
-    /// The belief's standard deviation (SI).
+    /// The belief's standard deviation per state (SI).
     pub fn std_dev(&self) -> State {
-        State::from_array([ComplexField::sqrt(self.belief.variance())])
+        State::from_vector(
+            &self.covariance().diagonal().map(<f32 as ComplexField>::sqrt),
+        )
     }
-    /// The belief's covariance, in SI units squared.
+    /// The belief's covariance, in SI units squared, ordered as the fields of `State`.
     pub fn covariance(&self) -> SMatrix<f32, 1, 1> {
         SMatrix::from_element(self.belief.variance())
     }
-    /// The probability that the state lies between `lo` and `hi` (SI).
+    /// The probability that the state lies in the box from `lo` to `hi` (SI).
     pub fn probability_in(&self, lo: &State, hi: &State) -> f32 {
-        self.belief.probability_between(lo.position, hi.position)
+        let (lo, hi) = (lo.vector(), hi.vector());
+        self.belief.probability_between(lo[0], hi[0])
     }
     /// Writes the belief's local maxima holding at least `min_fraction_of_peak` of the highest cell's mass into `out`; returns how many there are (possibly more than fit).
     pub fn modes(&self, min_fraction_of_peak: f32, out: &mut [Mode<f32, 1>]) -> usize {

@@ -87,7 +87,7 @@ fn imports(ctx: &Context, plan: &BayesPlan, traits: MathTraits) -> TokenStream {
             if has_sensors {
                 grid.extend([quote!(CorrectError), quote!(Likelihood)]);
             }
-            grid.extend([quote!(Noise), quote!(PredictError), quote!(SampledMotion)]);
+            grid.extend([quote!(Noise), quote!(PredictError)]);
             let mut particle = Vec::new();
             if has_sensors {
                 particle.push(quote!(ParticleCorrection));
@@ -97,6 +97,7 @@ fn imports(ctx: &Context, plan: &BayesPlan, traits: MathTraits) -> TokenStream {
                 quote!(ParticleFilter),
                 quote!(ParticleOptions),
                 quote!(Pcg32),
+                quote!(SampledMotion),
             ]);
             quote! {
                 use reckon_runtime::grid::{#(#grid),*};
@@ -141,7 +142,12 @@ fn source_width(ctx: &Context, source: &Source) -> TokenStream {
 }
 
 /// `let [[z0, _, z2]] = source.data.0;` binding the used entries of a vector.
-fn bind_vector(source: TokenStream, prefix: &str, len: usize, used: &dyn Fn(u32) -> bool) -> TokenStream {
+fn bind_vector(
+    source: TokenStream,
+    prefix: &str,
+    len: usize,
+    used: &dyn Fn(u32) -> bool,
+) -> TokenStream {
     if !(0..len as u32).any(used) {
         return quote!();
     }
@@ -315,11 +321,7 @@ fn particle_dynamics(ctx: &Context, plan: &BayesPlan, traits: &mut MathTraits) -
     let uses_tuning = !plan.sources.is_empty();
     let sources_dt = param("dt", plan.sources.iter().any(Source::is_white));
     let (fields, lifetime, impl_lifetime) = if uses_tuning {
-        (
-            quote!({ tuning: &'a Tuning, }),
-            quote!(<'a>),
-            quote!(<'_>),
-        )
+        (quote!({ tuning: &'a Tuning, }), quote!(<'a>), quote!(<'_>))
     } else {
         (quote!(;), quote!(), quote!())
     };
@@ -423,14 +425,19 @@ fn sensor(ctx: &Context, plan: &BayesPlan, index: usize, traits: &mut MathTraits
         })
         .collect();
     let x = param("x", !reads.states.is_empty() || !guards.is_empty());
-    let z = param("z", block.symbols.iter().any(|s| matches!(s, Symbol::Reading(_))));
+    let z = param(
+        "z",
+        block
+            .symbols
+            .iter()
+            .any(|s| matches!(s, Symbol::Reading(_))),
+    );
     let doc = doc(format!(
         "The likelihood of a reading of sensor `{}`, for the runtime's filters.",
         model_sensor.name
     ));
-    let unread_args = (!model_sensor.args.is_empty() && reads.args.is_empty()).then(|| {
-        quote!(#[allow(dead_code)])
-    });
+    let unread_args = (!model_sensor.args.is_empty() && reads.args.is_empty())
+        .then(|| quote!(#[allow(dead_code)]));
     quote! {
         #doc
         #unread_args
@@ -536,22 +543,27 @@ fn grid_estimator(ctx: &Context, plan: &BayesPlan, grid: &GridPlan) -> TokenStre
         .iter()
         .map(|s| ident(&format!("{}_CELLS", s.name.to_ascii_uppercase())))
         .collect();
-    let constant_items = grid.axes.iter().zip(states).zip(&constants).map(|((axis, state), name)| {
-        let count = names_usize(axis.count);
-        let doc = doc(format!(
-            "Cells along `{}`: {} of {} {} from {} {} (SI).",
-            state.name,
-            axis.count,
-            axis.width,
-            state.unit.dimension,
-            axis.lo,
-            state.unit.dimension
-        ));
-        quote! {
-            #doc
-            pub const #name: usize = #count;
-        }
-    });
+    let constant_items =
+        grid.axes
+            .iter()
+            .zip(states)
+            .zip(&constants)
+            .map(|((axis, state), name)| {
+                let count = names_usize(axis.count);
+                let doc = doc(format!(
+                    "Cells along `{}`: {} of {} {} from {} {} (SI).",
+                    state.name,
+                    axis.count,
+                    axis.width,
+                    state.unit.dimension,
+                    axis.lo,
+                    state.unit.dimension
+                ));
+                quote! {
+                    #doc
+                    pub const #name: usize = #count;
+                }
+            });
     let axes: Vec<TokenStream> = grid
         .axes
         .iter()
@@ -566,60 +578,45 @@ fn grid_estimator(ctx: &Context, plan: &BayesPlan, grid: &GridPlan) -> TokenStre
         .iter()
         .map(|(_, spread)| noise_value(spread.shape, ctx.number(spread.width)))
         .collect();
-    let fields: Vec<Ident> = states.iter().map(|s| names::ident(&s.name)).collect();
-    let one = grid.axes.len() == 1;
-    let (belief_type, construct, statistics) = if one {
-        let [cells] = [&constants[0]];
+    let (belief_type, construct, mean, covariance, probability) = if grid.axes.len() == 1 {
+        let cells = &constants[0];
         let (axis, mean, shape) = (&axes[0], &means[0], &shapes[0]);
-        let field = &fields[0];
         (
             quote!(Grid1<#t, #cells>),
             quote!(Grid1::from_density(#axis, #mean, #shape, GridOptions::default())?),
-            quote! {
-                /// The belief's mean (SI).
-                pub fn state(&self) -> State {
-                    State::from_array([self.belief.mean()])
-                }
-                /// The belief's standard deviation (SI).
-                pub fn std_dev(&self) -> State {
-                    State::from_array([ComplexField::sqrt(self.belief.variance())])
-                }
-                /// The belief's covariance, in SI units squared.
-                pub fn covariance(&self) -> SMatrix<#t, 1, 1> {
-                    SMatrix::from_element(self.belief.variance())
-                }
-                /// The probability that the state lies between `lo` and `hi` (SI).
-                pub fn probability_in(&self, lo: &State, hi: &State) -> #t {
-                    self.belief.probability_between(lo.#field, hi.#field)
-                }
-            },
+            quote!(SVector::from([self.belief.mean()])),
+            quote!(SMatrix::from_element(self.belief.variance())),
+            quote!(self.belief.probability_between(lo[0], hi[0])),
         )
     } else {
         let (cx, cy) = (&constants[0], &constants[1]);
         let (ax, ay) = (&axes[0], &axes[1]);
-        let (fx, fy) = (&fields[0], &fields[1]);
         (
             quote!(Grid2<#t, #cx, #cy>),
             quote!(Grid2::from_density(#ax, #ay, SVector::from([#(#means),*]), [#(#shapes),*], GridOptions::default())?),
-            quote! {
-                /// The belief's mean (SI).
-                pub fn state(&self) -> State {
-                    State::from_vector(&self.belief.mean())
-                }
-                /// The belief's standard deviation per state (SI).
-                pub fn std_dev(&self) -> State {
-                    State::from_vector(&self.belief.covariance().diagonal().map(<#t as ComplexField>::sqrt))
-                }
-                /// The belief's covariance, in SI units squared, ordered as the fields of `State`.
-                pub fn covariance(&self) -> SMatrix<#t, 2, 2> {
-                    self.belief.covariance()
-                }
-                /// The probability that the state lies in the box from `lo` to `hi` (SI).
-                pub fn probability_in(&self, lo: &State, hi: &State) -> #t {
-                    self.belief.probability_in((lo.#fx, hi.#fx), (lo.#fy, hi.#fy))
-                }
-            },
+            quote!(self.belief.mean()),
+            quote!(self.belief.covariance()),
+            quote!(self.belief.probability_in((lo[0], hi[0]), (lo[1], hi[1]))),
         )
+    };
+    let statistics = quote! {
+        /// The belief's mean (SI).
+        pub fn state(&self) -> State {
+            State::from_vector(&#mean)
+        }
+        /// The belief's standard deviation per state (SI).
+        pub fn std_dev(&self) -> State {
+            State::from_vector(&self.covariance().diagonal().map(<#t as ComplexField>::sqrt))
+        }
+        /// The belief's covariance, in SI units squared, ordered as the fields of `State`.
+        pub fn covariance(&self) -> SMatrix<#t, #d, #d> {
+            #covariance
+        }
+        /// The probability that the state lies in the box from `lo` to `hi` (SI).
+        pub fn probability_in(&self, lo: &State, hi: &State) -> #t {
+            let (lo, hi) = (lo.vector(), hi.vector());
+            #probability
+        }
     };
     let corrections = corrections(ctx, quote!(self.belief), quote!(GridCorrection<#t>));
     let accessors = tuning_accessors();
@@ -677,7 +674,9 @@ fn particle_estimator(ctx: &Context, plan: &BayesPlan) -> TokenStream {
     let dynamics = if plan.sources.is_empty() {
         quote!(Dynamics)
     } else {
-        quote!(Dynamics { tuning: &self.tuning })
+        quote!(Dynamics {
+            tuning: &self.tuning
+        })
     };
     let new = (plan.initial.iter().all(Option::is_some)).then(|| {
         let initial: Vec<(f64, Spread)> = plan.initial.iter().flatten().copied().collect();

@@ -8,7 +8,10 @@ use proc_macro2::{Ident, Span, TokenStream};
 use quote::quote;
 
 use super::models::{param, Reads};
-use super::module::{doc, input_struct, reading_struct, state_struct, to_si, tuning_struct};
+use super::module::{
+    doc, input_struct, reading_struct, sensor_arguments, state_struct, tuning_struct,
+    SensorArguments,
+};
 use super::names;
 use super::straight::{Block, MathTraits};
 use super::Context;
@@ -468,34 +471,15 @@ fn corrections(ctx: &Context, target: TokenStream, outcome: TokenStream) -> Vec<
             let name = names::joined(&["correct", &sensor.name]);
             let reading_ty = names::type_ident(&sensor.name, "Reading");
             let sensor_ty = names::type_ident(&sensor.name, "Sensor");
-            let arg_names: Vec<Ident> = sensor
-                .args
-                .iter()
-                .map(|a| match a.name.as_str() {
-                    "reading" | "sensor" => names::joined(&[&a.name, "arg"]),
-                    other => names::ident(other),
-                })
-                .collect();
-            let arg_si: Vec<TokenStream> = sensor
-                .args
-                .iter()
-                .zip(&arg_names)
-                .map(|(a, ident)| to_si(ctx, quote!(#ident), &a.unit))
-                .collect();
+            let SensorArguments {
+                names: arg_names,
+                si: arg_si,
+                sentence: args_sentence,
+            } = sensor_arguments(ctx, sensor);
             let args_field = if arg_si.is_empty() {
                 quote!()
             } else {
                 quote!(args: [#(#arg_si),*],)
-            };
-            let arg_docs: Vec<String> = sensor
-                .args
-                .iter()
-                .map(|a| format!("`{}` in `{}`", a.name, a.unit.text))
-                .collect();
-            let args_sentence = if arg_docs.is_empty() {
-                String::new()
-            } else {
-                format!(" Arguments: {}.", arg_docs.join(", "))
             };
             let doc = doc(format!(
                 "Corrects the belief with a reading of `{}` (in the units the spec declares).{args_sentence} A rejected reading leaves the belief untouched.",

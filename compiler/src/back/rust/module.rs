@@ -15,7 +15,7 @@ use super::noise::white_states;
 use super::Context;
 use crate::back::bayes::{Shape, Spread};
 use crate::ir::RuntimeMatrix;
-use crate::model::{DeclaredUnit, Distribution, ProcessNoiseKind, SensorNoise};
+use crate::model::{DeclaredUnit, Distribution, ProcessNoiseKind, Sensor, SensorNoise};
 use crate::options::Method;
 use crate::stats;
 use crate::units::{Base, Dimension, Rational};
@@ -595,6 +595,48 @@ fn dynamics_value(ctx: &Context, models: &models::Models) -> TokenStream {
     }
 }
 
+/// A sensor's per-reading arguments as the `correct_<sensor>` method takes them.
+pub(super) struct SensorArguments {
+    /// Parameter names (spec names, renamed where they would clash with the method's own).
+    pub names: Vec<Ident>,
+    /// Each argument converted to SI.
+    pub si: Vec<TokenStream>,
+    /// " Arguments: `bx` in `m`, ..." for the method's doc, or nothing.
+    pub sentence: String,
+}
+
+pub(super) fn sensor_arguments(ctx: &Context, sensor: &Sensor) -> SensorArguments {
+    let names: Vec<Ident> = sensor
+        .args
+        .iter()
+        .map(|a| match a.name.as_str() {
+            "reading" | "sensor" | "args" | "gate" => names::joined(&[&a.name, "arg"]),
+            other => names::ident(other),
+        })
+        .collect();
+    let si = sensor
+        .args
+        .iter()
+        .zip(&names)
+        .map(|(a, ident)| to_si(ctx, quote!(#ident), &a.unit))
+        .collect();
+    let described: Vec<String> = sensor
+        .args
+        .iter()
+        .map(|a| format!("`{}` in `{}`", a.name, a.unit.text))
+        .collect();
+    let sentence = if described.is_empty() {
+        String::new()
+    } else {
+        format!(" Arguments: {}.", described.join(", "))
+    };
+    SensorArguments {
+        names,
+        si,
+        sentence,
+    }
+}
+
 fn estimator(ctx: &Context, models: &models::Models) -> TokenStream {
     let t = ctx.scalar_type();
     let model = ctx.model;
@@ -643,29 +685,11 @@ fn estimator(ctx: &Context, models: &models::Models) -> TokenStream {
         let reading_ty = names::type_ident(&sensor.name, "Reading");
         let sensor_ty = names::type_ident(&sensor.name, "Sensor");
         let m = usize_literal(sensor.components.len());
-        let arg_names: Vec<Ident> = sensor
-            .args
-            .iter()
-            .map(|a| match a.name.as_str() {
-                "reading" | "sensor" | "args" | "gate" => names::joined(&[&a.name, "arg"]),
-                other => names::ident(other),
-            })
-            .collect();
-        let arg_si = sensor
-            .args
-            .iter()
-            .zip(&arg_names)
-            .map(|(a, ident)| to_si(ctx, quote!(#ident), &a.unit));
-        let arg_docs: Vec<String> = sensor
-            .args
-            .iter()
-            .map(|a| format!("`{}` in `{}`", a.name, a.unit.text))
-            .collect();
-        let args_sentence = if arg_docs.is_empty() {
-            String::new()
-        } else {
-            format!(" Arguments: {}.", arg_docs.join(", "))
-        };
+        let SensorArguments {
+            names: arg_names,
+            si: arg_si,
+            sentence: args_sentence,
+        } = sensor_arguments(ctx, sensor);
         let gate = if sensor.gate.is_some() {
             let field = ctx.tuning_gate(index);
             quote!(Some(self.tuning.#field))

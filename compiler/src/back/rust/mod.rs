@@ -78,15 +78,21 @@ impl GenerationReport {
             .as_ref()
             .map_or(String::new(), |size| format!(", {size}"));
         format!(
-            "{} estimator for `{}` in {}: {} states{belief}, {} sensors{jacobians}; motion: {}",
+            "{} estimator for `{}` in {}: {}{belief}, {}{jacobians}; motion: {}",
             method_title(self.method),
             self.model,
             self.scalar.name(),
-            self.states,
-            self.sensors,
+            counted(self.states, "state"),
+            counted(self.sensors, "sensor"),
             self.discretisation,
         )
     }
+}
+
+/// `1 state`, `2 states`.
+fn counted(count: usize, noun: &str) -> String {
+    let plural = if count == 1 { "" } else { "s" };
+    format!("{count} {noun}{plural}")
 }
 
 fn method_title(method: Method) -> &'static str {

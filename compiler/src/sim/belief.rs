@@ -357,6 +357,10 @@ pub(super) fn run(machinery: &Machinery<'_>, parts: &BayesParts<'_>, state: RunS
     }
 }
 
+// Never inlined: each capacity's arrays must live in a frame of their own. Inlined into
+// the dispatch, every arm's arrays would share one frame far larger than the stack
+// sized for the capacity in use.
+#[inline(never)]
 fn grid1<const N: usize>(machinery: &Machinery<'_>, parts: &BayesParts<'_>, state: RunState<'_>) -> bool {
     let (Some(motion), Some(axis), Some((mean, [spread]))) = (
         parts.grid.as_ref(),
@@ -390,6 +394,10 @@ fn grid2_rows<const NX: usize>(
     }
 }
 
+// Never inlined: each capacity's arrays must live in a frame of their own. Inlined into
+// the dispatch, every arm's arrays would share one frame far larger than the stack
+// sized for the capacity in use.
+#[inline(never)]
 fn grid2<const NX: usize, const NY: usize>(
     machinery: &Machinery<'_>,
     parts: &BayesParts<'_>,
@@ -430,6 +438,10 @@ fn particles<const D: usize>(
     }
 }
 
+// Never inlined: each capacity's arrays must live in a frame of their own. Inlined into
+// the dispatch, every arm's arrays would share one frame far larger than the stack
+// sized for the capacity in use.
+#[inline(never)]
 fn particles_in<const D: usize, const N: usize>(
     machinery: &Machinery<'_>,
     parts: &BayesParts<'_>,

@@ -294,9 +294,10 @@ impl<'a> SensorLikelihood<'a> {
 impl<const D: usize> Likelihood<f64, D, 0> for ReadingLikelihood<'_, '_> {
     fn ln_likelihood(&self, x: &SVector<f64, D>, _z: &SVector<f64, 0>) -> f64 {
         let plan = self.sensor.plan;
-        let outside = x.iter().zip(&plan.support).any(|(&value, range)| {
-            range.is_some_and(|(lo, hi)| !(lo <= value && value <= hi))
-        });
+        let outside = x
+            .iter()
+            .zip(&plan.support)
+            .any(|(&value, range)| range.is_some_and(|(lo, hi)| !(lo <= value && value <= hi)));
         if outside {
             return f64::NEG_INFINITY;
         }

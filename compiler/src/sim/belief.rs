@@ -100,14 +100,19 @@ pub(crate) fn layout(plan: &BayesPlan) -> Result<Layout, String> {
     let largest = |slots: usize| format!("the simulator holds at most {slots}");
     match &plan.grid {
         Some(grid) => match grid.axes.as_slice() {
-            [x] => Capacity::fitting(x.count).map(Layout::Grid1).ok_or_else(|| {
-                format!(
-                    "the grid has {} cells; {} cells on one axis",
-                    x.count,
-                    largest(Capacity::C65536.slots())
-                )
-            }),
-            [x, y] => match (AxisCapacity::fitting(x.count), AxisCapacity::fitting(y.count)) {
+            [x] => Capacity::fitting(x.count)
+                .map(Layout::Grid1)
+                .ok_or_else(|| {
+                    format!(
+                        "the grid has {} cells; {} cells on one axis",
+                        x.count,
+                        largest(Capacity::C65536.slots())
+                    )
+                }),
+            [x, y] => match (
+                AxisCapacity::fitting(x.count),
+                AxisCapacity::fitting(y.count),
+            ) {
                 (Some(cx), Some(cy)) => Ok(Layout::Grid2(cx, cy)),
                 _ => Err(format!(
                     "the grid has {} x {} cells; {} cells on each of two axes",
@@ -245,7 +250,9 @@ impl<const N: usize> Estimate for Grid1Run<'_, '_, N> {
     fn correct(&mut self, schedule: usize, z: &DVector<f64>, args: &[f64]) -> Correction {
         let grid = &mut self.grid;
         self.parts.correct_with(schedule, z, args, |likelihood| {
-            grid.correct(likelihood, &nothing()).ok().map(|c| c.ln_evidence)
+            grid.correct(likelihood, &nothing())
+                .ok()
+                .map(|c| c.ln_evidence)
         })
     }
 
@@ -274,7 +281,9 @@ impl<const NX: usize, const NY: usize> Estimate for Grid2Run<'_, '_, NX, NY> {
     fn correct(&mut self, schedule: usize, z: &DVector<f64>, args: &[f64]) -> Correction {
         let grid = &mut self.grid;
         self.parts.correct_with(schedule, z, args, |likelihood| {
-            grid.correct(likelihood, &nothing()).ok().map(|c| c.ln_evidence)
+            grid.correct(likelihood, &nothing())
+                .ok()
+                .map(|c| c.ln_evidence)
         })
     }
 
@@ -301,7 +310,10 @@ impl<const D: usize, const N: usize> Estimate for ParticleRun<'_, '_, D, N> {
     fn correct(&mut self, schedule: usize, z: &DVector<f64>, args: &[f64]) -> Correction {
         let filter = &mut self.filter;
         self.parts.correct_with(schedule, z, args, |likelihood| {
-            filter.correct(likelihood, &nothing()).ok().map(|c| c.ln_evidence)
+            filter
+                .correct(likelihood, &nothing())
+                .ok()
+                .map(|c| c.ln_evidence)
         })
     }
 
@@ -361,7 +373,11 @@ pub(super) fn run(machinery: &Machinery<'_>, parts: &BayesParts<'_>, state: RunS
 // the dispatch, every arm's arrays would share one frame far larger than the stack
 // sized for the capacity in use.
 #[inline(never)]
-fn grid1<const N: usize>(machinery: &Machinery<'_>, parts: &BayesParts<'_>, state: RunState<'_>) -> bool {
+fn grid1<const N: usize>(
+    machinery: &Machinery<'_>,
+    parts: &BayesParts<'_>,
+    state: RunState<'_>,
+) -> bool {
     let (Some(motion), Some(axis), Some((mean, [spread]))) = (
         parts.grid.as_ref(),
         parts.grid_axis::<N>(0),
@@ -454,9 +470,13 @@ fn particles_in<const D: usize, const N: usize>(
         resample_below: parts.plan.resample_below,
     };
     let rng = Pcg32::new(state.seed, 0);
-    let Ok(filter) =
-        ParticleFilter::<f64, D, N>::from_noise_counted(parts.plan.particles, mean, spread, rng, options)
-    else {
+    let Ok(filter) = ParticleFilter::<f64, D, N>::from_noise_counted(
+        parts.plan.particles,
+        mean,
+        spread,
+        rng,
+        options,
+    ) else {
         return false;
     };
     let mut estimate = ParticleRun { filter, parts };

@@ -112,7 +112,9 @@ pub(crate) fn prepare(project_dir: &Path, scenario: &Scenario) -> Result<Prepare
                     options.method.name()
                 ),
             )
-            .with_hint("use fewer cells or particles for the scenario, or a Kalman method")])
+            .with_hint(
+                "use fewer cells or particles for the scenario, or a Kalman method",
+            )])
         })?;
         warnings.extend(plan.warnings.iter().cloned());
         (plan.lowered.clone(), Some((plan, layout)))
@@ -214,7 +216,10 @@ pub fn run_scenario(
         &prepared.model,
         &prepared.lowered,
         &scenario.options(),
-        prepared.bayes.as_ref().map(|(plan, layout)| (plan, *layout)),
+        prepared
+            .bayes
+            .as_ref()
+            .map(|(plan, layout)| (plan, *layout)),
     )
     .map_err(|error| setup_error(error, &prepared, scenario))?;
     let runs = prepared.plan.runs;
@@ -337,30 +342,30 @@ fn aggregate(scenario: &Scenario, prepared: &Prepared, records: Vec<run::RunReco
         verdict: Verdict::Optimistic,
     };
     let nees = Check::of_runs(&nees_runs, n).unwrap_or_else(|| empty_check(n));
-    let sensors = plan
-        .sensors
-        .iter()
-        .enumerate()
-        .map(|(k, schedule)| {
-            let dof = model.sensors[schedule.sensor].components.len();
-            let nis_runs: Vec<&[f64]> = records.iter().map(|r| r.nis[k].as_slice()).collect();
-            let evidence_runs: Vec<&[f64]> =
-                records.iter().map(|r| r.evidence[k].as_slice()).collect();
-            SensorReport {
-                name: model.sensors[schedule.sensor].name.clone(),
-                times: schedule.times.clone(),
-                nis: prepared.bayes.is_none().then(|| {
-                    Check::of_runs(&nis_runs, dof).unwrap_or_else(|| empty_check(dof))
-                }),
-                ln_evidence: if prepared.bayes.is_some() {
-                    average_over_runs(&evidence_runs)
-                } else {
-                    Vec::new()
-                },
-                gated: records.iter().map(|r| r.gated[k]).sum(),
-            }
-        })
-        .collect();
+    let sensors =
+        plan.sensors
+            .iter()
+            .enumerate()
+            .map(|(k, schedule)| {
+                let dof = model.sensors[schedule.sensor].components.len();
+                let nis_runs: Vec<&[f64]> = records.iter().map(|r| r.nis[k].as_slice()).collect();
+                let evidence_runs: Vec<&[f64]> =
+                    records.iter().map(|r| r.evidence[k].as_slice()).collect();
+                SensorReport {
+                    name: model.sensors[schedule.sensor].name.clone(),
+                    times: schedule.times.clone(),
+                    nis: prepared.bayes.is_none().then(|| {
+                        Check::of_runs(&nis_runs, dof).unwrap_or_else(|| empty_check(dof))
+                    }),
+                    ln_evidence: if prepared.bayes.is_some() {
+                        average_over_runs(&evidence_runs)
+                    } else {
+                        Vec::new()
+                    },
+                    gated: records.iter().map(|r| r.gated[k]).sum(),
+                }
+            })
+            .collect();
     let rms_per_step = (0..plan.steps)
         .map(|step| {
             (0..n)

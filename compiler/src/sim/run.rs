@@ -175,9 +175,9 @@ impl Estimate for KalmanRun<'_, '_> {
         let gate = self.machinery.gates[schedule];
         let outcome = match self.steps {
             Steps::Linearised => self.filter.correct(sensor, z, args, gate),
-            Steps::Unscented(weights) => {
-                self.filter.correct_unscented(sensor, z, args, gate, weights)
-            }
+            Steps::Unscented(weights) => self
+                .filter
+                .correct_unscented(sensor, z, args, gate, weights),
         };
         match outcome {
             Ok(innovation) => Correction::Innovation {

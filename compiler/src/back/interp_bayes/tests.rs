@@ -69,7 +69,12 @@ fn a_grid_axis_combines_its_normal_noises() {
     // A width scale of 2 doubles every source's width, so the combined one.
     let doubled = GridMotion::new(&plan, 2.0).expect("grid plan");
     let [kernel] = Motion::<f64, 1, 0>::noise(&doubled.at(&[0.5]), &nothing(), 0.1);
-    assert_eq!(kernel, Noise::Normal { std_dev: 0.020_396_078_054_371_14 });
+    assert_eq!(
+        kernel,
+        Noise::Normal {
+            std_dev: 0.020_396_078_054_371_14
+        }
+    );
 }
 
 /// The sampled transition draws the sources in order (the slip, then the odometry
@@ -86,7 +91,11 @@ fn the_sampled_transition_draws_each_source_in_order() {
     let slip = replay.sample(&Noise::Triangle { half_width: 0.02 });
     let odometry = replay.sample(&Noise::Normal { std_dev: 0.1 });
     let expected = 2.0 + (0.4 + odometry) * 0.5 + slip;
-    assert!((next[0] - expected).abs() < 1e-15, "{} vs {expected}", next[0]);
+    assert!(
+        (next[0] - expected).abs() < 1e-15,
+        "{} vs {expected}",
+        next[0]
+    );
     assert_eq!(rng, replay);
     assert!(SampledMotion::<f64, 1, 0>::check_noise(&step, &nothing(), 0.5).is_ok());
     // A process-noise factor of zero leaves widths of zero, which the filter refuses.
@@ -102,7 +111,11 @@ fn likelihoods_follow_the_reading_noise_shape_and_the_support() {
     let plan = bayes_plan(MIXED_NOISE, Method::Particle);
     let wall = SensorLikelihood::new(&plan, 0).expect("sensor");
     let at = |x: f64, z: f64| {
-        Likelihood::<f64, 1, 0>::ln_likelihood(&wall.reading(&[z], &[]), &Vector1::new(x), &nothing())
+        Likelihood::<f64, 1, 0>::ln_likelihood(
+            &wall.reading(&[z], &[]),
+            &Vector1::new(x),
+            &nothing(),
+        )
     };
     assert!((at(3.0, 7.03) - 10f64.ln()).abs() < 1e-12);
     assert_eq!(at(3.0, 7.06), f64::NEG_INFINITY);
@@ -166,10 +179,15 @@ fn the_grid_agrees_with_the_kalman_filter_on_a_linear_gaussian_walk() {
     let pos = SensorLikelihood::new(&plan, 0).expect("sensor");
     let axis_plan = plan.grid.as_ref().expect("grid").axes[0];
     assert_eq!(axis_plan.count, 500);
-    let axis = Axis::<f64, 512>::with_count(axis_plan.lo, axis_plan.width, axis_plan.count)
-        .expect("axis");
-    let mut grid = Grid1::from_density(axis, 1.0, Noise::Normal { std_dev: 0.5 }, GridOptions::default())
-        .expect("grid");
+    let axis =
+        Axis::<f64, 512>::with_count(axis_plan.lo, axis_plan.width, axis_plan.count).expect("axis");
+    let mut grid = Grid1::from_density(
+        axis,
+        1.0,
+        Noise::Normal { std_dev: 0.5 },
+        GridOptions::default(),
+    )
+    .expect("grid");
     let dt = 0.1;
     let cell_variance = axis_plan.width.powi(2) / 12.0;
     for (k, (&(v, z), (mean, variance))) in WALK_CYCLES
@@ -177,15 +195,20 @@ fn the_grid_agrees_with_the_kalman_filter_on_a_linear_gaussian_walk() {
         .zip(kalman_walk(&WALK_CYCLES, dt))
         .enumerate()
     {
-        grid.predict(&motion.at(&[v]), &nothing(), dt).expect("predict");
-        grid.correct(&pos.reading(&[z], &[]), &nothing()).expect("correct");
+        grid.predict(&motion.at(&[v]), &nothing(), dt)
+            .expect("predict");
+        grid.correct(&pos.reading(&[z], &[]), &nothing())
+            .expect("correct");
         let excess = grid.variance() - variance;
         assert!(
             excess > -1e-9 && excess <= (k as f64 + 2.0) * cell_variance,
             "cycle {k}: variance {} vs {variance}",
             grid.variance()
         );
-        assert!((grid.mean() - mean).abs() < 0.1 * axis_plan.width, "cycle {k}");
+        assert!(
+            (grid.mean() - mean).abs() < 0.1 * axis_plan.width,
+            "cycle {k}"
+        );
     }
 }
 
@@ -215,8 +238,12 @@ fn the_particle_filter_agrees_with_the_kalman_filter_on_a_linear_gaussian_walk()
         .zip(kalman_walk(&WALK_CYCLES, dt))
         .enumerate()
     {
-        filter.predict(&motion.at(&[v]), &nothing(), dt).expect("predict");
-        let correction = filter.correct(&pos.reading(&[z], &[]), &nothing()).expect("correct");
+        filter
+            .predict(&motion.at(&[v]), &nothing(), dt)
+            .expect("predict");
+        let correction = filter
+            .correct(&pos.reading(&[z], &[]), &nothing())
+            .expect("correct");
         let spread = 6.0 * ((k + 1) as f64).sqrt() / correction.effective_size.sqrt();
         let got = filter.covariance()[(0, 0)];
         assert!(

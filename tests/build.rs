@@ -44,10 +44,7 @@ const SPECS: &[(&str, &[Variant])] = &[
     ("specs/every_function.reckon", &[EKF_F64, EKF_F32, UKF_F64]),
     ("specs/units_declared.reckon", &[EKF_F64, UKF_F64]),
     ("specs/units_si.reckon", &[EKF_F64, UKF_F64]),
-    (
-        "specs/dock_grid.reckon",
-        &[GRID_F64, GRID_F32, PARTICLE_F64],
-    ),
+    ("specs/dock_grid.reckon", &[GRID_F64, GRID_F32, PARTICLE_F64]),
 ];
 
 fn main() {

@@ -339,9 +339,8 @@ fn particle_settings(options: &EstimatorOptions) -> Result<(usize, f64), Diagnos
     let count = options.particle_count();
     let threshold = options.resample_threshold();
     let invalid = |message: String| {
-        Diagnostic::new(codes::BELIEF_SIZE_INVALID, Span::default(), message).with_note(
-            "the setting comes from the build options (reckon.toml, command line or build script)",
-        )
+        Diagnostic::new(codes::BELIEF_SIZE_INVALID, Span::default(), message)
+            .with_note("the setting comes from the build options (reckon.toml, command line or build script)")
     };
     if !(1..=MAX_PARTICLES).contains(&count) {
         return Err(invalid(format!(
@@ -473,20 +472,17 @@ fn sources(model: &Model, lowered: &Lowered) -> Vec<Source> {
             span,
         }
     });
-    let white = model
-        .process_noise
-        .iter()
-        .filter_map(|noise| match noise.kind {
-            ProcessNoiseKind::White { amplitude } => Some(Source {
-                kind: SourceKind::White { state: noise.state },
-                spread: Spread {
-                    shape: Shape::Normal,
-                    width: amplitude,
-                },
-                span: noise.span,
-            }),
-            ProcessNoiseKind::PerStep(_) => None,
-        });
+    let white = model.process_noise.iter().filter_map(|noise| match noise.kind {
+        ProcessNoiseKind::White { amplitude } => Some(Source {
+            kind: SourceKind::White { state: noise.state },
+            spread: Spread {
+                shape: Shape::Normal,
+                width: amplitude,
+            },
+            span: noise.span,
+        }),
+        ProcessNoiseKind::PerStep(_) => None,
+    });
     discrete.chain(white).collect()
 }
 

@@ -50,31 +50,16 @@ fn marker_track_is_a_translated_grid_of_800_cells() {
     // No initial block entry: uniform over the whole tunnel.
     let (mean, spread) = plan.initial[0].unwrap();
     assert_eq!(mean, 20.0);
-    assert_eq!(
-        spread,
-        Spread {
-            shape: Shape::Uniform,
-            width: 20.0
-        }
-    );
+    assert_eq!(spread, Spread { shape: Shape::Uniform, width: 20.0 });
 }
 
 #[test]
 fn a_triangle_and_a_normal_on_one_axis_refuse_the_grid_but_not_the_particles() {
-    assert_eq!(
-        refusal_codes(MIXED_NOISE, &options(Method::Grid)),
-        ["E0606"]
-    );
+    assert_eq!(refusal_codes(MIXED_NOISE, &options(Method::Grid)), ["E0606"]);
     let plan = plan(&model(MIXED_NOISE), &options(Method::Particle)).unwrap();
     let shapes: Vec<Shape> = plan.sources.iter().map(|s| s.spread.shape).collect();
     assert_eq!(shapes, [Shape::Triangle, Shape::Normal]);
-    assert_eq!(
-        plan.reading_noise[0][0],
-        Spread {
-            shape: Shape::Uniform,
-            width: 0.05
-        }
-    );
+    assert_eq!(plan.reading_noise[0][0], Spread { shape: Shape::Uniform, width: 0.05 });
 }
 
 #[test]
@@ -88,10 +73,7 @@ process { a ~ normal(1 cm)
   b ~ normal(1 cm)
   c ~ normal(1 cm) }
 ";
-    assert_eq!(
-        refusal_codes(three_states, &options(Method::Grid)),
-        ["E0605"]
-    );
+    assert_eq!(refusal_codes(three_states, &options(Method::Grid)), ["E0605"]);
     assert!(refusal_codes(three_states, &options(Method::Particle)).is_empty());
 
     let no_range = "model m
@@ -171,20 +153,12 @@ sensor s { p : m = a
   q : m = b
   noise ~ covariance [1 m^2, 0.5 m^2; 0.5 m^2, 1 m^2] }
 ";
-    assert_eq!(
-        refusal_codes(correlated, &options(Method::Particle)),
-        ["E0605"]
-    );
+    assert_eq!(refusal_codes(correlated, &options(Method::Particle)), ["E0605"]);
 }
 
 #[test]
 fn settings_out_of_range_are_refused() {
-    for (particles, resample_below) in [
-        (Some(0), None),
-        (Some(2_000_000), None),
-        (None, Some(0.0)),
-        (None, Some(1.5)),
-    ] {
+    for (particles, resample_below) in [(Some(0), None), (Some(2_000_000), None), (None, Some(0.0)), (None, Some(1.5))] {
         let options = EstimatorOptions {
             particles,
             resample_below,

@@ -141,12 +141,7 @@ fn source_width(ctx: &Context, source: &Source) -> TokenStream {
 }
 
 /// `let [[z0, _, z2]] = source.data.0;` binding the used entries of a vector.
-fn bind_vector(
-    source: TokenStream,
-    prefix: &str,
-    len: usize,
-    used: &dyn Fn(u32) -> bool,
-) -> TokenStream {
+fn bind_vector(source: TokenStream, prefix: &str, len: usize, used: &dyn Fn(u32) -> bool) -> TokenStream {
     if !(0..len as u32).any(used) {
         return quote!();
     }
@@ -320,7 +315,11 @@ fn particle_dynamics(ctx: &Context, plan: &BayesPlan, traits: &mut MathTraits) -
     let uses_tuning = !plan.sources.is_empty();
     let sources_dt = param("dt", plan.sources.iter().any(Source::is_white));
     let (fields, lifetime, impl_lifetime) = if uses_tuning {
-        (quote!({ tuning: &'a Tuning, }), quote!(<'a>), quote!(<'_>))
+        (
+            quote!({ tuning: &'a Tuning, }),
+            quote!(<'a>),
+            quote!(<'_>),
+        )
     } else {
         (quote!(;), quote!(), quote!())
     };
@@ -424,19 +423,14 @@ fn sensor(ctx: &Context, plan: &BayesPlan, index: usize, traits: &mut MathTraits
         })
         .collect();
     let x = param("x", !reads.states.is_empty() || !guards.is_empty());
-    let z = param(
-        "z",
-        block
-            .symbols
-            .iter()
-            .any(|s| matches!(s, Symbol::Reading(_))),
-    );
+    let z = param("z", block.symbols.iter().any(|s| matches!(s, Symbol::Reading(_))));
     let doc = doc(format!(
         "The likelihood of a reading of sensor `{}`, for the runtime's filters.",
         model_sensor.name
     ));
-    let unread_args = (!model_sensor.args.is_empty() && reads.args.is_empty())
-        .then(|| quote!(#[allow(dead_code)]));
+    let unread_args = (!model_sensor.args.is_empty() && reads.args.is_empty()).then(|| {
+        quote!(#[allow(dead_code)])
+    });
     quote! {
         #doc
         #unread_args
@@ -542,27 +536,22 @@ fn grid_estimator(ctx: &Context, plan: &BayesPlan, grid: &GridPlan) -> TokenStre
         .iter()
         .map(|s| ident(&format!("{}_CELLS", s.name.to_ascii_uppercase())))
         .collect();
-    let constant_items =
-        grid.axes
-            .iter()
-            .zip(states)
-            .zip(&constants)
-            .map(|((axis, state), name)| {
-                let count = names_usize(axis.count);
-                let doc = doc(format!(
-                    "Cells along `{}`: {} of {} {} from {} {} (SI).",
-                    state.name,
-                    axis.count,
-                    axis.width,
-                    state.unit.dimension,
-                    axis.lo,
-                    state.unit.dimension
-                ));
-                quote! {
-                    #doc
-                    pub const #name: usize = #count;
-                }
-            });
+    let constant_items = grid.axes.iter().zip(states).zip(&constants).map(|((axis, state), name)| {
+        let count = names_usize(axis.count);
+        let doc = doc(format!(
+            "Cells along `{}`: {} of {} {} from {} {} (SI).",
+            state.name,
+            axis.count,
+            axis.width,
+            state.unit.dimension,
+            axis.lo,
+            state.unit.dimension
+        ));
+        quote! {
+            #doc
+            pub const #name: usize = #count;
+        }
+    });
     let axes: Vec<TokenStream> = grid
         .axes
         .iter()
@@ -688,9 +677,7 @@ fn particle_estimator(ctx: &Context, plan: &BayesPlan) -> TokenStream {
     let dynamics = if plan.sources.is_empty() {
         quote!(Dynamics)
     } else {
-        quote!(Dynamics {
-            tuning: &self.tuning
-        })
+        quote!(Dynamics { tuning: &self.tuning })
     };
     let new = (plan.initial.iter().all(Option::is_some)).then(|| {
         let initial: Vec<(f64, Spread)> = plan.initial.iter().flatten().copied().collect();

@@ -13,8 +13,8 @@ use super::models::{self, runtime_field, usize_literal};
 use super::names::{self, number};
 use super::noise::white_states;
 use super::Context;
-use crate::back::bayes::{Shape, Spread};
 use crate::ir::RuntimeMatrix;
+use crate::back::bayes::{Shape, Spread};
 use crate::model::{DeclaredUnit, Distribution, ProcessNoiseKind, SensorNoise};
 use crate::options::Method;
 use crate::stats;
@@ -48,9 +48,9 @@ impl Context<'_> {
     pub(crate) fn tuning_component(&self, sensor: usize, component: usize) -> Ident {
         let sensor = &self.model.sensors[sensor];
         let shape = match &sensor.noise {
-            SensorNoise::PerComponent(list) => list
-                .get(component)
-                .map_or(Shape::Normal, |d| Spread::of(d).shape),
+            SensorNoise::PerComponent(list) => {
+                list.get(component).map_or(Shape::Normal, |d| Spread::of(d).shape)
+            }
             SensorNoise::Covariance(_) => Shape::Normal,
         };
         names::joined(&[

@@ -175,28 +175,17 @@ fn grid_and_particle_refusals_point_at_the_cause() {
     let failure = check_golden("marker_track.grid.stderr", &golden);
     assert!(failure.is_none(), "{failure:?}");
     // The particle filter samples both where they enter.
-    let particle = generate(
-        "marker_track",
-        &text,
-        &options(Method::Particle, Scalar::F64),
-    )
-    .unwrap_or_else(|d| panic!("{d:?}"));
+    let particle = generate("marker_track", &text, &options(Method::Particle, Scalar::F64))
+        .unwrap_or_else(|d| panic!("{d:?}"));
     assert!(particle.code.contains("Noise::Triangle"));
     // A state that wraps fits neither.
-    let diagnostics = refused(
-        "pallet_robot",
-        &spec("pallet_robot"),
-        &options(Method::Particle, Scalar::F64),
-    );
+    let diagnostics = refused("pallet_robot", &spec("pallet_robot"), &options(Method::Particle, Scalar::F64));
     assert_eq!(diagnostics[0].code, codes::MODEL_DOES_NOT_FIT_METHOD);
     let too_many = EstimatorOptions {
         particles: Some(0),
         ..options(Method::Particle, Scalar::F64)
     };
-    assert_eq!(
-        refused("rail_cart", &spec("rail_cart"), &too_many)[0].code,
-        codes::BELIEF_SIZE_INVALID
-    );
+    assert_eq!(refused("rail_cart", &spec("rail_cart"), &too_many)[0].code, codes::BELIEF_SIZE_INVALID);
 }
 
 #[test]

@@ -17,7 +17,9 @@ use reckon_runtime::grid::{Axis, Grid1, Grid2, GridOptions, Noise};
 use reckon_runtime::particle::{ParticleFilter, ParticleOptions, Pcg32};
 
 use crate::back::bayes::BayesPlan;
-use crate::back::interp_bayes::{spread_noise, GridMotion, ParticleMotion, SensorLikelihood};
+use crate::back::interp_bayes::{
+    spread_noise, GridMotion, ParticleMotion, ReadingLikelihood, SensorLikelihood,
+};
 
 use super::run::{Correction, Estimate, Machinery, RunRecord};
 use super::scenario::Plan;
@@ -95,7 +97,8 @@ pub(crate) enum Layout {
     Particles { states: usize, capacity: Capacity },
 }
 
-/// The first words of an E0715 message, and the limit behind it.
+/// The runtime filter and capacity `plan` runs in, or why the simulator cannot hold it
+/// (the message of an E0715).
 pub(crate) fn layout(plan: &BayesPlan) -> Result<Layout, String> {
     let largest = |slots: usize| format!("the simulator holds at most {slots}");
     match &plan.grid {
@@ -172,13 +175,8 @@ impl<'a> BayesParts<'a> {
     /// The parts of `plan` run in `layout` on the scenario `scenario`, the motion noise
     /// scaled by the scenario's process-noise factor (on the variance, as for the
     /// Kalman methods' covariance).
-    pub(crate) fn new(
-        plan: &'a BayesPlan,
-        layout: Layout,
-        scenario: &Plan,
-        noise_scale: f64,
-    ) -> BayesParts<'a> {
-        let width_scale = noise_scale.sqrt();
+    pub(crate) fn new(plan: &'a BayesPlan, layout: Layout, scenario: &Plan) -> BayesParts<'a> {
+        let width_scale = scenario.noise_scale.sqrt();
         BayesParts {
             plan,
             layout,
@@ -216,7 +214,7 @@ impl<'a> BayesParts<'a> {
         schedule: usize,
         z: &DVector<f64>,
         args: &[f64],
-        correct: impl FnOnce(&crate::back::interp_bayes::ReadingLikelihood<'_, 'a>) -> Option<f64>,
+        correct: impl FnOnce(&ReadingLikelihood<'_, 'a>) -> Option<f64>,
     ) -> Correction {
         let Some(sensor) = self.likelihoods.get(schedule) else {
             return Correction::Rejected;

@@ -105,7 +105,7 @@ enum ReadingNoise {
 enum Filter<'a> {
     /// A Kalman method, stepped by `steps`.
     Kalman(Steps),
-    /// The grid or particle method, in the runtime capacity `layout`.
+    /// The grid or particle method.
     Bayes(BayesParts<'a>),
 }
 
@@ -359,7 +359,7 @@ impl<'a> Machinery<'a> {
         };
         let filter = match (bayes, options.method) {
             (Some((bayes, layout)), _) => {
-                Filter::Bayes(BayesParts::new(bayes, layout, plan, plan.noise_scale))
+                Filter::Bayes(BayesParts::new(bayes, layout, plan))
             }
             (None, Method::Ukf) => {
                 let params = UnscentedParams {

@@ -105,8 +105,8 @@ enum ReadingNoise {
 enum Filter<'a> {
     /// A Kalman method, stepped by `steps`.
     Kalman(Steps),
-    /// The grid or particle method.
-    Bayes(BayesParts<'a>),
+    /// The grid or particle method (boxed: its interpreted model is large).
+    Bayes(Box<BayesParts<'a>>),
 }
 
 /// Everything a run of one scenario needs, built once and shared by the workers.
@@ -359,7 +359,7 @@ impl<'a> Machinery<'a> {
         };
         let filter = match (bayes, options.method) {
             (Some((bayes, layout)), _) => {
-                Filter::Bayes(BayesParts::new(bayes, layout, plan))
+                Filter::Bayes(Box::new(BayesParts::new(bayes, layout, plan)))
             }
             (None, Method::Ukf) => {
                 let params = UnscentedParams {

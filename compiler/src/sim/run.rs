@@ -645,6 +645,62 @@ impl<'a> Machinery<'a> {
 mod tests {
     use super::*;
 
+    /// A reading noise `uniform(5 cm)` is drawn uniform: never beyond its half-width,
+    /// with variance (0.1 m)^2 / 12 (common practice, no source). A normal of that
+    /// variance would leave the half-width about 8% of the time.
+    #[test]
+    fn reading_noise_is_drawn_with_each_components_shape() {
+        let dir = std::env::temp_dir().join(format!("reckon-sim-shape-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).expect("temp dir");
+        let spec = "model cart
+state { x : m in 0 m .. 10 m by 10 cm }
+input { v : m/s ~ normal(0.1 m/s) }
+motion discrete { x = x + v * dt }
+process { x ~ triangle(2 cm) }
+sensor wall { d : m = 10 m - x
+  noise ~ uniform(5 cm) }
+";
+        std::fs::write(dir.join("cart.reckon"), spec).expect("spec written");
+        let project = crate::project::parse_project(
+            r#"
+            [[scenario]]
+            name = "cart"
+            spec = "cart.reckon"
+            method = "particle"
+            duration = "1 s"
+            step = "100 ms"
+            inputs = { v = "0.2 m/s" }
+            [[scenario.sensor]]
+            name = "wall"
+            rate = "10 Hz"
+            "#,
+        )
+        .expect("project");
+        let scenario = &project.scenarios[0];
+        let prepared = super::super::prepare(&dir, scenario);
+        std::fs::remove_dir_all(&dir).expect("cleanup");
+        let prepared = prepared.unwrap_or_else(|e| panic!("{e:?}"));
+        let machinery = Machinery::new(
+            &prepared.plan,
+            &prepared.model,
+            &prepared.lowered,
+            &scenario.options(),
+            prepared
+                .bayes
+                .as_ref()
+                .map(|(plan, layout)| (plan, *layout)),
+        )
+        .unwrap_or_else(|e| panic!("{e:?}"));
+        let mut rng = Pcg64::seed_from_u64(4);
+        let count = 40_000;
+        let draws: Vec<f64> = (0..count)
+            .map(|_| machinery.reading_noise(0, &mut rng)[0])
+            .collect();
+        assert!(draws.iter().all(|d| d.abs() <= 0.05));
+        let variance = draws.iter().map(|d| d * d).sum::<f64>() / count as f64;
+        assert!((variance / (0.01 / 12.0) - 1.0).abs() < 0.03, "{variance}");
+    }
+
     #[test]
     fn runs_get_different_seeds() {
         let seeds: std::collections::BTreeSet<u64> = (0..1000).map(|r| run_seed(7, r)).collect();

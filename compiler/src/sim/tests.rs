@@ -437,3 +437,62 @@ fn scenario_settings_reach_the_estimator_options() {
     assert_eq!(options.particle_count(), 500);
     assert_eq!(options.resample_threshold(), 0.25);
 }
+
+/// A plane walker read in both coordinates: the 2-D grid (100 x 100 cells) and a
+/// two-state particle filter run end to end and end near the truth.
+#[test]
+fn two_state_grid_and_particle_scenarios_run() {
+    let spec = "model walker
+state { east : m in -5 m .. 5 m by 10 cm
+  north : m in -5 m .. 5 m by 10 cm }
+input { ve : m/s
+  vn : m/s }
+motion discrete { east = east + ve * dt
+  north = north + vn * dt }
+process { east ~ normal(5 cm)
+  north ~ normal(5 cm) }
+sensor fix { e : m = east
+  n : m = north
+  noise ~ normal(20 cm) }
+initial { east ~ normal(-2 m, 50 cm)
+  north ~ normal(1 m, 50 cm) }
+";
+    let dir = std::env::temp_dir().join(format!("reckon-sim-walker-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    std::fs::write(dir.join("walker.reckon"), spec).expect("spec written");
+    let reports: Vec<Result<SimReport, SimError>> = [("grid", ""), ("particle", "particles = 500")]
+        .iter()
+        .map(|(method, settings)| {
+            let text = format!(
+                r#"
+                [[scenario]]
+                name = "walker_{method}"
+                spec = "walker.reckon"
+                method = "{method}"
+                {settings}
+                duration = "3 s"
+                step = "100 ms"
+                runs = 2
+                seed = 3
+                inputs = {{ ve = "0.5 m/s", vn = "-0.2 m/s" }}
+
+                [[scenario.sensor]]
+                name = "fix"
+                rate = "10 Hz"
+                "#
+            );
+            run_scenario(&dir, &scenario(&text), &quiet)
+        })
+        .collect();
+    std::fs::remove_dir_all(&dir).expect("cleanup");
+    for report in reports {
+        let report = report.unwrap_or_else(|e| panic!("{e:?}"));
+        assert_eq!(report.rejected, 0, "{}", report.summary_text());
+        assert_eq!(report.sample.truth[0].len(), 2);
+        assert!(report.nees.mean.iter().all(|v| v.is_finite()));
+        // The readings' 20 cm noise, averaged over many readings, leaves well under
+        // 20 cm of error per coordinate.
+        let end = report.rms_per_step.last().expect("steps");
+        assert!(end.iter().all(|&e| e < 0.2), "{}", report.summary_text());
+    }
+}

@@ -407,7 +407,7 @@ mod tests {
             .out_dir(&dir)
             .method(Method::Grid)
             .compile(&[&spec]);
-        // The probe's state has no range for a grid.
+        // The probe's state has no range for a grid to cover.
         assert!(format!("{:?}", error.err()).contains("E0605"));
         let _ = std::fs::remove_dir_all(dir);
     }

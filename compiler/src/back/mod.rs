@@ -5,5 +5,6 @@
 
 pub mod bayes;
 pub mod interp;
+pub mod interp_bayes;
 pub mod output;
 pub mod rust;

@@ -190,7 +190,7 @@ codes! {
     SCENARIO_SPEC_UNREADABLE = "E0714", Error, "the scenario's spec cannot be read",
         "The `spec` path of a `[[scenario]]` is relative to the folder of `reckon.toml`; the\nfile must exist and be readable.";
     SCENARIO_METHOD = "E0715", Error, "the simulator cannot run this method",
-        "The simulator runs the Kalman methods (`kf`, `ekf`, `ukf`) through the runtime. Grid\nand particle filters are not simulated yet; choose a Kalman method for the scenario.";
+        "The simulator runs every method through the runtime, but it holds a grid or particle\nfilter in one of a few fixed capacities: up to 65536 cells on a 1-D grid, 512 x 512\non a 2-D grid, 65536 particles, and 1 to 8 states for a particle filter. A larger\nfilter (which a generated estimator may still be, within the limits of E0607) is\nrefused, as is a run whose worker thread cannot get the stack the filter needs.\n\nFix: fewer cells (`cells = N`, or a coarser `by` in the spec), fewer particles\n(`particles = N` in the `[[scenario]]`), or a Kalman method.";
     SCENARIO_NO_INITIAL_BELIEF = "E0716", Error, "a simulated state has no initial belief",
         "The filter starts from the spec's `initial` block, and the truth is drawn from it\nunless the scenario fixes it. A state without an initial belief cannot start a filter:\nadd it to the spec's `initial` block.";
     UNOBSERVED_STATE = "W0801", Warning, "state never observed",

@@ -86,16 +86,29 @@ pub struct Check {
     pub verdict: Verdict,
 }
 
+/// `per_run[run][instant]` averaged over runs, for the instants every run has.
+pub(crate) fn average_over_runs(per_run: &[&[f64]]) -> Vec<f64> {
+    let instants = per_run.iter().map(|r| r.len()).min().unwrap_or(0);
+    (0..instants)
+        .map(|k| per_run.iter().map(|r| r[k]).sum::<f64>() / per_run.len() as f64)
+        .collect()
+}
+
 impl Check {
+    /// The fraction of instants from `start` on inside the band (0 when none).
+    pub fn inside_from(&self, start: usize) -> f64 {
+        let late = self.mean.get(start..).unwrap_or_default();
+        let inside = late.iter().filter(|&&m| self.band.contains(m)).count();
+        inside as f64 / late.len().max(1) as f64
+    }
+
     /// Averages `per_run[run][instant]` over runs and checks it against the band.
     /// `None` when there are no runs or no degrees of freedom.
     pub fn of_runs(per_run: &[&[f64]], dof: usize) -> Option<Check> {
         let runs = per_run.len();
         let band = Band::averaged(runs, dof)?;
-        let instants = per_run.iter().map(|r| r.len()).min().unwrap_or(0);
-        let mean: Vec<f64> = (0..instants)
-            .map(|k| per_run.iter().map(|r| r[k]).sum::<f64>() / runs as f64)
-            .collect();
+        let mean = average_over_runs(per_run);
+        let instants = mean.len();
         let below = mean.iter().filter(|&&m| m < band.lower).count();
         let inside_count = mean.iter().filter(|&&m| band.contains(m)).count();
         let above = instants - below - inside_count;

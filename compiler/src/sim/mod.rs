@@ -2,15 +2,21 @@
 //! NEES and NIS against chi-square bands), error statistics, plots and tables.
 //!
 //! A scenario (`[[scenario]]` in `reckon.toml`, see [`Scenario`]) names a spec, a
-//! Kalman method and a schedule of inputs and sensor readings. Each run draws an
-//! initial truth from the spec's initial belief, propagates it with the spec's own
-//! motion and noise, draws readings from the spec's sensors, and runs the filter on
-//! them through the interpreter adapter ([`crate::back::interp`]) and the runtime: the
+//! method and a schedule of inputs and sensor readings. Each run draws an initial
+//! truth from the spec's initial belief, propagates it with the spec's own motion and
+//! noise, draws readings from the spec's sensors, and runs the filter on them through
+//! the interpreter adapters ([`crate::back::interp`] for the Kalman methods,
+//! [`crate::back::interp_bayes`] for the grid and particle methods) and the runtime: the
 //! filter code is the one generated estimators use, not a second implementation.
+//!
+//! Every method is judged by the NEES of its belief's mean and covariance. The NIS
+//! needs an innovation covariance, which only the Kalman methods have; for the grid and
+//! particle methods the report gives each reading's averaged log evidence instead.
 //!
 //! The library prints nothing: [`run_scenario`] returns a [`SimReport`], and
 //! [`write_outputs`] writes its SVG plots, CSV tables and text summary.
 
+mod belief;
 mod consistency;
 mod plot;
 mod run;
@@ -21,6 +27,7 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::Mutex;
 
+use crate::back::bayes::{self, BayesPlan};
 use crate::back::rust::{checks, lower_options};
 use crate::check;
 use crate::diag::{codes, Diagnostic, Span};
@@ -29,6 +36,8 @@ use crate::model::Model;
 use crate::options::Method;
 
 pub use consistency::{Band, Check, Verdict, BAND_PROBABILITY, CONSISTENT_FRACTION};
+
+use consistency::average_over_runs;
 pub use run::Trace;
 pub use scenario::{InputValue, QuantityText, Scenario, ScheduleEntry, SensorPlan};
 
@@ -59,6 +68,8 @@ pub(crate) struct Prepared {
     pub model: Model,
     pub lowered: Lowered,
     pub plan: Plan,
+    /// The grid or particle plan and the capacity it runs in (other methods: `None`).
+    pub bayes: Option<(BayesPlan, belief::Layout)>,
     pub warnings: Vec<Diagnostic>,
 }
 
@@ -85,20 +96,29 @@ pub(crate) fn prepare(project_dir: &Path, scenario: &Scenario) -> Result<Prepare
         return Err(spec_error(checked.diagnostics));
     };
     let options = scenario.options();
-    if !options.method.is_kalman() {
-        return Err(SimError::Scenario(vec![Diagnostic::new(
-            codes::SCENARIO_METHOD,
-            scenario.span,
-            format!(
-                "the simulator cannot run method `{}`",
-                options.method.name()
-            ),
-        )
-        .with_hint("choose `kf`, `ekf` or `ukf` for the scenario")]));
-    }
-    let lowered = ir::lower(&model, &lower_options(&options)).map_err(spec_error)?;
     let mut warnings = checked.diagnostics;
-    warnings.extend(checks::check(&model, &lowered, &options).map_err(spec_error)?);
+    let (lowered, bayes) = if options.method.is_kalman() {
+        let lowered = ir::lower(&model, &lower_options(&options)).map_err(spec_error)?;
+        warnings.extend(checks::check(&model, &lowered, &options).map_err(spec_error)?);
+        (lowered, None)
+    } else {
+        let plan = bayes::plan(&model, &options).map_err(spec_error)?;
+        let layout = belief::layout(&plan).map_err(|why| {
+            SimError::Scenario(vec![Diagnostic::new(
+                codes::SCENARIO_METHOD,
+                scenario.span,
+                format!(
+                    "the simulator cannot run this {} filter: {why}",
+                    options.method.name()
+                ),
+            )
+            .with_hint(
+                "use fewer cells or particles for the scenario, or a Kalman method",
+            )])
+        })?;
+        warnings.extend(plan.warnings.iter().cloned());
+        (plan.lowered.clone(), Some((plan, layout)))
+    };
     let plan = scenario::resolve(scenario, &model).map_err(SimError::Scenario)?;
     Ok(Prepared {
         path,
@@ -106,6 +126,7 @@ pub(crate) fn prepare(project_dir: &Path, scenario: &Scenario) -> Result<Prepare
         model,
         lowered,
         plan,
+        bayes,
         warnings,
     })
 }
@@ -128,8 +149,13 @@ pub struct SensorReport {
     pub name: String,
     /// Reading times, seconds.
     pub times: Vec<f64>,
-    /// Averaged NIS against its band (degrees of freedom: the reading's components).
-    pub nis: Check,
+    /// Averaged NIS against its band (degrees of freedom: the reading's components);
+    /// `None` for the grid and particle methods, which have no innovation covariance.
+    pub nis: Option<Check>,
+    /// Grid and particle methods: the log evidence of each reading under the belief
+    /// before it, averaged over runs (empty for the Kalman methods). Readings the
+    /// runtime rejected make their average NaN.
+    pub ln_evidence: Vec<f64>,
     /// Readings refused by the sensor's gate, over all runs.
     pub gated: usize,
 }
@@ -190,10 +216,21 @@ pub fn run_scenario(
         &prepared.model,
         &prepared.lowered,
         &scenario.options(),
+        prepared
+            .bayes
+            .as_ref()
+            .map(|(plan, layout)| (plan, *layout)),
     )
     .map_err(|error| setup_error(error, &prepared, scenario))?;
     let runs = prepared.plan.runs;
-    let records = monte_carlo(&machinery, runs, progress);
+    let records = monte_carlo(&machinery, runs, progress).map_err(|error| {
+        SimError::Scenario(vec![Diagnostic::new(
+            codes::SCENARIO_METHOD,
+            scenario.span,
+            format!("the simulator could not start a worker thread: {error}"),
+        )
+        .with_hint("a grid or particle filter's stack grows with its capacity: use fewer cells or particles")])
+    })?;
     Ok(aggregate(scenario, &prepared, records))
 }
 
@@ -227,20 +264,27 @@ fn setup_error(error: run::SetupError, prepared: &Prepared, scenario: &Scenario)
     }
 }
 
+/// Runs `runs` runs on worker threads, each with the stack the filter needs (a grid's
+/// or particle filter's arrays live on the stack). Fails only when no worker starts.
 fn monte_carlo(
     machinery: &run::Machinery<'_>,
     runs: usize,
     progress: &(dyn Fn(usize, usize) + Sync),
-) -> Vec<run::RunRecord> {
+) -> std::io::Result<Vec<run::RunRecord>> {
     let workers = std::thread::available_parallelism()
         .map_or(1, usize::from)
         .clamp(1, runs.max(1));
     let next = AtomicUsize::new(0);
     let done = AtomicUsize::new(0);
     let slots: Mutex<Vec<Option<run::RunRecord>>> = Mutex::new(vec![None; runs]);
-    std::thread::scope(|scope| {
+    let started = std::thread::scope(|scope| {
+        let (mut count, mut failure) = (0, None);
         for _ in 0..workers {
-            scope.spawn(|| loop {
+            let builder = match machinery.stack_bytes() {
+                Some(bytes) => std::thread::Builder::new().stack_size(bytes),
+                None => std::thread::Builder::new(),
+            };
+            let worker = builder.spawn_scoped(scope, || loop {
                 let run = next.fetch_add(1, Ordering::Relaxed);
                 if run >= runs {
                     break;
@@ -251,14 +295,24 @@ fn monte_carlo(
                 }
                 progress(done.fetch_add(1, Ordering::Relaxed) + 1, runs);
             });
+            match worker {
+                Ok(_) => count += 1,
+                Err(error) => failure = Some(error),
+            }
+        }
+        // The workers that did start take over every run.
+        match failure {
+            Some(error) if count == 0 => Err(error),
+            _ => Ok(()),
         }
     });
-    slots
+    started?;
+    Ok(slots
         .into_inner()
         .unwrap_or_default()
         .into_iter()
         .flatten()
-        .collect()
+        .collect())
 }
 
 fn rms(values: impl Iterator<Item = f64>) -> f64 {
@@ -288,21 +342,30 @@ fn aggregate(scenario: &Scenario, prepared: &Prepared, records: Vec<run::RunReco
         verdict: Verdict::Optimistic,
     };
     let nees = Check::of_runs(&nees_runs, n).unwrap_or_else(|| empty_check(n));
-    let sensors = plan
-        .sensors
-        .iter()
-        .enumerate()
-        .map(|(k, schedule)| {
-            let dof = model.sensors[schedule.sensor].components.len();
-            let nis_runs: Vec<&[f64]> = records.iter().map(|r| r.nis[k].as_slice()).collect();
-            SensorReport {
-                name: model.sensors[schedule.sensor].name.clone(),
-                times: schedule.times.clone(),
-                nis: Check::of_runs(&nis_runs, dof).unwrap_or_else(|| empty_check(dof)),
-                gated: records.iter().map(|r| r.gated[k]).sum(),
-            }
-        })
-        .collect();
+    let sensors =
+        plan.sensors
+            .iter()
+            .enumerate()
+            .map(|(k, schedule)| {
+                let dof = model.sensors[schedule.sensor].components.len();
+                let nis_runs: Vec<&[f64]> = records.iter().map(|r| r.nis[k].as_slice()).collect();
+                let evidence_runs: Vec<&[f64]> =
+                    records.iter().map(|r| r.evidence[k].as_slice()).collect();
+                SensorReport {
+                    name: model.sensors[schedule.sensor].name.clone(),
+                    times: schedule.times.clone(),
+                    nis: prepared.bayes.is_none().then(|| {
+                        Check::of_runs(&nis_runs, dof).unwrap_or_else(|| empty_check(dof))
+                    }),
+                    ln_evidence: if prepared.bayes.is_some() {
+                        average_over_runs(&evidence_runs)
+                    } else {
+                        Vec::new()
+                    },
+                    gated: records.iter().map(|r| r.gated[k]).sum(),
+                }
+            })
+            .collect();
     let rms_per_step = (0..plan.steps)
         .map(|step| {
             (0..n)
@@ -354,14 +417,14 @@ fn aggregate(scenario: &Scenario, prepared: &Prepared, records: Vec<run::RunReco
     }
 }
 
+/// The average of the finite values (0 when there are none).
+fn finite_average(values: &[f64]) -> f64 {
+    let finite: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
+    finite.iter().sum::<f64>() / finite.len().max(1) as f64
+}
+
 fn check_line(out: &mut String, what: &str, check: &Check) {
-    let finite: Vec<f64> = check
-        .mean
-        .iter()
-        .copied()
-        .filter(|v| v.is_finite())
-        .collect();
-    let average = finite.iter().sum::<f64>() / finite.len().max(1) as f64;
+    let average = finite_average(&check.mean);
     let _ = writeln!(
         out,
         "{what} ({} dof): {:.1}% inside [{:.4}, {:.4}] ({} above, {} below), average {:.3} -> {}",
@@ -377,6 +440,36 @@ fn check_line(out: &mut String, what: &str, check: &Check) {
 }
 
 impl SimReport {
+    /// The NEES and errors late in the scenario, beside the whole run's: a filter that
+    /// starts from a many-peaked belief is judged fairly only once the peaks have
+    /// resolved, and the early phase stays in the whole-run line.
+    fn late_nees_lines(&self, out: &mut String) {
+        let steps = self.times.len();
+        let (Some(&end), Some(last_rms)) = (self.times.last(), self.rms_per_step.last()) else {
+            return;
+        };
+        let half = steps / 2;
+        let _ = writeln!(
+            out,
+            "NEES over the second half (t >= {} s): {:.1}% inside, average {:.3}",
+            self.times[half],
+            100.0 * self.nees.inside_from(half),
+            finite_average(self.nees.mean.get(half..).unwrap_or_default())
+        );
+        let errors: Vec<String> = self
+            .states
+            .iter()
+            .zip(last_rms)
+            .map(|(s, rms)| format!("{} {:.4} {}", s.name, rms / s.to_si, s.unit))
+            .collect();
+        let _ = writeln!(
+            out,
+            "at the end (t = {end} s): averaged NEES {:.3}, RMS error {}",
+            self.nees.mean.last().copied().unwrap_or(f64::NAN),
+            errors.join(", ")
+        );
+    }
+
     /// A few lines for a terminal: setup, NEES and NIS verdicts, RMS errors.
     pub fn summary_text(&self) -> String {
         let mut out = String::new();
@@ -405,8 +498,20 @@ impl SimReport {
             self.runs
         );
         check_line(&mut out, "NEES", &self.nees);
+        self.late_nees_lines(&mut out);
         for sensor in &self.sensors {
-            check_line(&mut out, &format!("NIS `{}`", sensor.name), &sensor.nis);
+            match &sensor.nis {
+                Some(nis) => check_line(&mut out, &format!("NIS `{}`", sensor.name), nis),
+                None => {
+                    let _ = writeln!(
+                        out,
+                        "`{}`: no NIS (the {} method has no innovation covariance); log evidence per reading, averaged: {:.3}",
+                        sensor.name,
+                        self.method.name(),
+                        finite_average(&sensor.ln_evidence)
+                    );
+                }
+            }
             if sensor.gated > 0 {
                 let _ = writeln!(out, "  {} readings refused by the gate", sensor.gated);
             }
@@ -452,19 +557,34 @@ impl SimReport {
         out
     }
 
-    /// Per-reading table: sensor, time, averaged NIS with its band.
+    /// Per-reading table: sensor, time, averaged NIS with its band (Kalman methods).
+    /// For the grid and particle methods: sensor, time, averaged log evidence.
     pub fn readings_csv(&self) -> String {
-        let mut out = String::from("sensor,time_s,nis_mean,nis_lower,nis_upper\n");
-        for sensor in &self.sensors {
-            for (t, nis) in sensor.times.iter().zip(&sensor.nis.mean) {
-                let _ = writeln!(
-                    out,
-                    "{},{t},{nis},{},{}",
-                    sensor.name, sensor.nis.band.lower, sensor.nis.band.upper
-                );
+        if self.method.is_kalman() {
+            let mut out = String::from("sensor,time_s,nis_mean,nis_lower,nis_upper\n");
+            for (sensor, nis) in self
+                .sensors
+                .iter()
+                .filter_map(|s| s.nis.as_ref().map(|nis| (s, nis)))
+            {
+                for (t, mean) in sensor.times.iter().zip(&nis.mean) {
+                    let _ = writeln!(
+                        out,
+                        "{},{t},{mean},{},{}",
+                        sensor.name, nis.band.lower, nis.band.upper
+                    );
+                }
             }
+            out
+        } else {
+            let mut out = String::from("sensor,time_s,ln_evidence_mean\n");
+            for sensor in &self.sensors {
+                for (t, evidence) in sensor.times.iter().zip(&sensor.ln_evidence) {
+                    let _ = writeln!(out, "{},{t},{evidence}", sensor.name);
+                }
+            }
+            out
         }
-        out
     }
 }
 
@@ -476,7 +596,7 @@ fn csv_unit(unit: &str) -> String {
 
 /// Writes the report into `out_dir` (created if needed): `states.svg` (truth,
 /// estimate and 3-sigma band of the first run, one panel per state), `nees.svg`,
-/// `nis.svg` (when sensors were read), `steps.csv`, `readings.csv` and
+/// `nis.svg` (when a Kalman filter's sensors were read), `steps.csv`, `readings.csv` and
 /// `summary.txt`. Returns the paths written.
 pub fn write_outputs(report: &SimReport, out_dir: &Path) -> std::io::Result<Vec<PathBuf>> {
     std::fs::create_dir_all(out_dir)?;
@@ -490,7 +610,7 @@ pub fn write_outputs(report: &SimReport, out_dir: &Path) -> std::io::Result<Vec<
             plot::nees_svg(report).map_err(std::io::Error::other)?,
         ),
     ];
-    if !report.sensors.is_empty() {
+    if report.sensors.iter().any(|s| s.nis.is_some()) {
         files.push((
             "nis.svg",
             plot::nis_svg(report).map_err(std::io::Error::other)?,

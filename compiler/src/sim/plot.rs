@@ -204,15 +204,16 @@ pub(crate) fn nis_svg(report: &SimReport) -> Result<String, String> {
     let panels: Vec<Panel> = report
         .sensors
         .iter()
-        .map(|s| {
-            check_panel(
+        .filter_map(|s| {
+            let nis = s.nis.as_ref()?;
+            Some(check_panel(
                 format!(
                     "NIS {}, average of {} runs ({} dof)",
-                    s.name, report.runs, s.nis.dof
+                    s.name, report.runs, nis.dof
                 ),
                 &s.times,
-                &s.nis,
-            )
+                nis,
+            ))
         })
         .collect();
     figure(&panels)

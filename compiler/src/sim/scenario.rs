@@ -79,7 +79,7 @@ pub struct Scenario {
     pub name: String,
     /// Spec path, relative to the project file.
     pub spec: Spanned<PathBuf>,
-    /// Filter method (`kf`, `ekf`, `ukf`).
+    /// Filter method (`kf`, `ekf`, `ukf`, `grid`, `particle`).
     #[serde(default)]
     pub method: Method,
     /// Covariance update form.
@@ -91,6 +91,15 @@ pub struct Scenario {
     /// Unscented scaling.
     #[serde(default)]
     pub unscented: UnscentedParams,
+    /// Grid: cells per axis for states whose range gives no cell size.
+    #[serde(default)]
+    pub cells: Option<u32>,
+    /// Particle: the number of particles.
+    #[serde(default)]
+    pub particles: Option<u32>,
+    /// Particle: resample below this fraction of the particle count.
+    #[serde(default)]
+    pub resample_below: Option<f64>,
     /// Simulated time (`"20 s"`).
     pub duration: Spanned<QuantityText>,
     /// Motion step (`"10 ms"`): the filter predicts at least this often.
@@ -137,7 +146,9 @@ impl Scenario {
             update: self.update,
             integrator: self.integrator,
             unscented: self.unscented,
-            ..EstimatorOptions::default()
+            grid_cells: self.cells,
+            particles: self.particles,
+            resample_below: self.resample_below,
         }
     }
 }

@@ -259,7 +259,7 @@ impl<const N: usize> Estimate for Grid1Run<'_, '_, N> {
     }
 
     fn covariance(&self) -> DMatrix<f64> {
-        DMatrix::from_element(1, 1, self.grid.variance())
+        DMatrix::from_element(1, 1, self.grid.histogram_variance())
     }
 }
 
@@ -290,7 +290,7 @@ impl<const NX: usize, const NY: usize> Estimate for Grid2Run<'_, '_, NX, NY> {
     }
 
     fn covariance(&self) -> DMatrix<f64> {
-        DMatrix::from_column_slice(2, 2, self.grid.covariance().as_slice())
+        DMatrix::from_column_slice(2, 2, self.grid.histogram_covariance().as_slice())
     }
 }
 

@@ -166,9 +166,11 @@ impl Estimator {
             &self.covariance().diagonal().map(<f32 as ComplexField>::sqrt),
         )
     }
-    /// The belief's covariance, in SI units squared, ordered as the fields of `State`.
+    /// The belief's covariance, in SI units squared, ordered as the fields of `State`,
+    /// with each cell's mass spread over its cell (a belief held in one cell still
+    /// leaves the state anywhere in it).
     pub fn covariance(&self) -> SMatrix<f32, 1, 1> {
-        SMatrix::from_element(self.belief.variance())
+        SMatrix::from_element(self.belief.histogram_variance())
     }
     /// The probability that the state lies in the box from `lo` to `hi` (SI).
     pub fn probability_in(&self, lo: &State, hi: &State) -> f32 {

@@ -116,9 +116,19 @@ impl<T: RealField + Copy, const N: usize> Grid1<T, N> {
         self.plane.moments().0[0]
     }
 
-    /// The variance of the belief.
+    /// The variance of the belief, each cell's mass at the cell's centre.
     pub fn variance(&self) -> T {
         self.plane.moments().1[0][0]
+    }
+
+    /// The variance of the belief read as a histogram, each cell's mass spread evenly
+    /// over its cell: [`variance`](Self::variance) plus `width^2 / 12`, the variance of
+    /// a uniform distribution over one cell. This is the uncertainty to report: a
+    /// belief held in one cell still leaves the state anywhere in that cell, so the
+    /// centre-point variance (zero then) would claim a precision the grid cannot give.
+    pub fn histogram_variance(&self) -> T {
+        let width = self.plane.x.width();
+        self.variance() + width * width / lit(12.0)
     }
 
     /// Writes the local maxima holding at least `min_fraction_of_peak` of the largest
@@ -160,6 +170,25 @@ mod tests {
 
     fn axis<const N: usize>(lo: f64, width: f64) -> Axis<f64, N> {
         Axis::new(lo, width).expect("valid test axis")
+    }
+
+    #[test]
+    fn histogram_variance_is_that_of_the_cells_as_uniform_densities() {
+        // Mass evenly over k cells of width w is the uniform distribution on k w, of
+        // variance (k w)^2 / 12 (common practice, no source): exactly what the
+        // histogram reading gives, where the centre-point variance is short by w^2 / 12.
+        let w = 0.25;
+        for k in [1usize, 2, 7] {
+            let masses: [f64; 16] = core::array::from_fn(|i| if i < k { 1.0 } else { 0.0 });
+            let grid = Grid1::from_masses(axis(0.0, w), masses, GridOptions::default())
+                .expect("valid masses");
+            let uniform = (k as f64 * w).powi(2) / 12.0;
+            assert!(
+                (grid.histogram_variance() - uniform).abs() < 1e-12,
+                "{k} cells"
+            );
+            assert!((grid.variance() - (uniform - w * w / 12.0)).abs() < 1e-12);
+        }
     }
 
     fn normal(std_dev: f64) -> Noise<f64> {

@@ -7,7 +7,7 @@ use super::line::Axis;
 use super::model::{
     validate_reading, validate_step, CorrectError, Likelihood, Motion, PredictError,
 };
-use super::noise::Noise;
+use super::noise::{lit, Noise};
 use super::plane::Plane;
 use super::{
     axis_kernel, checked_translation, record_mode, GridCorrection, GridError, GridOptions,
@@ -143,10 +143,20 @@ impl<T: RealField + Copy, const NX: usize, const NY: usize> Grid2<T, NX, NY> {
         Vector2::new(x, y)
     }
 
-    /// The covariance of the belief.
+    /// The covariance of the belief, each cell's mass at the cell's centre.
     pub fn covariance(&self) -> Matrix2<T> {
         let (_, [[xx, xy], [yx, yy]]) = self.plane.moments();
         Matrix2::new(xx, xy, yx, yy)
+    }
+
+    /// The covariance of the belief read as a histogram, each cell's mass spread evenly
+    /// over its cell: [`covariance`](Self::covariance) plus `width^2 / 12` on each axis's
+    /// variance (see [`Grid1::histogram_variance`](super::Grid1::histogram_variance)).
+    pub fn histogram_covariance(&self) -> Matrix2<T> {
+        let (wx, wy) = (self.plane.x.width(), self.plane.y.width());
+        let twelve = lit::<T>(12.0);
+        self.covariance()
+            + Matrix2::from_diagonal(&Vector2::new(wx * wx / twelve, wy * wy / twelve))
     }
 
     /// Writes the local maxima (8-neighbourhood) holding at least `min_fraction_of_peak`
@@ -195,6 +205,22 @@ mod tests {
             Axis::new(-6.0, H).expect("valid x axis"),
             Axis::new(-5.0, H).expect("valid y axis"),
         )
+    }
+
+    #[test]
+    fn histogram_covariance_adds_each_axis_cell_variance() {
+        // One cell holding everything: uniform over the cell on each axis, variances
+        // w^2 / 12 and no correlation (common practice, no source).
+        let mut masses = [[0.0; 4]; 3];
+        masses[1][2] = 1.0;
+        let (x, y) = (
+            Axis::new(0.0, 0.3).expect("x"),
+            Axis::new(0.0, 0.2).expect("y"),
+        );
+        let grid = Grid2::from_masses(x, y, masses, GridOptions::default()).expect("valid");
+        let expected = Matrix2::new(0.09 / 12.0, 0.0, 0.0, 0.04 / 12.0);
+        assert!((grid.histogram_covariance() - expected).abs().max() < 1e-15);
+        assert_eq!(grid.covariance(), Matrix2::zeros());
     }
 
     fn blob(mean: (f64, f64), spread: (f64, f64)) -> Plane2 {

@@ -569,7 +569,7 @@ fn grid_estimator(ctx: &Context, plan: &BayesPlan, grid: &GridPlan) -> TokenStre
             quote!(Grid1<#t, #cells>),
             quote!(Grid1::from_density(#axis, #mean, #shape, GridOptions::default())?),
             quote!(SVector::from([self.belief.mean()])),
-            quote!(SMatrix::from_element(self.belief.variance())),
+            quote!(SMatrix::from_element(self.belief.histogram_variance())),
             quote!(self.belief.probability_between(lo[0], hi[0])),
         )
     } else {
@@ -579,7 +579,7 @@ fn grid_estimator(ctx: &Context, plan: &BayesPlan, grid: &GridPlan) -> TokenStre
             quote!(Grid2<#t, #cx, #cy>),
             quote!(Grid2::from_density(#ax, #ay, SVector::from([#(#means),*]), [#(#shapes),*], GridOptions::default())?),
             quote!(self.belief.mean()),
-            quote!(self.belief.covariance()),
+            quote!(self.belief.histogram_covariance()),
             quote!(self.belief.probability_in((lo[0], hi[0]), (lo[1], hi[1]))),
         )
     };
@@ -592,7 +592,9 @@ fn grid_estimator(ctx: &Context, plan: &BayesPlan, grid: &GridPlan) -> TokenStre
         pub fn std_dev(&self) -> State {
             State::from_vector(&self.covariance().diagonal().map(<#t as ComplexField>::sqrt))
         }
-        /// The belief's covariance, in SI units squared, ordered as the fields of `State`.
+        /// The belief's covariance, in SI units squared, ordered as the fields of `State`,
+        /// with each cell's mass spread over its cell (a belief held in one cell still
+        /// leaves the state anywhere in it).
         pub fn covariance(&self) -> SMatrix<#t, #d, #d> {
             #covariance
         }

@@ -1,7 +1,19 @@
 //! End-to-end and external-reference tests.
+mod bench_filters;
 mod drive;
 mod endurance;
 mod faults;
 mod generated;
 mod ir_reference;
 mod runtime_reference;
+
+/// The filters the estimator benchmarks compare, shared with `benches/estimators.rs`
+/// (which uses the parts these tests do not, such as the `f32` finite-difference-free
+/// rows).
+#[path = "../benches/filters/mod.rs"]
+#[allow(dead_code)]
+mod filters;
+
+/// Counts allocations per thread so tests can check that a step allocates nothing.
+#[global_allocator]
+static ALLOCATOR: filters::counting::Counting = filters::counting::Counting;

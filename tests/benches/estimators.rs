@@ -147,6 +147,30 @@ impl Visitor for AllocationTable {
     }
 }
 
+/// Prints how far each variant's warmed-up state is from the generated `f64` one's, as
+/// the largest difference relative to `1 + |reference|`: the variants must be running
+/// the same filter for their costs to be comparable.
+#[derive(Default)]
+struct Agreement {
+    reference: Vec<f64>,
+}
+
+impl Visitor for Agreement {
+    fn visit<F: Filter>(&mut self, case: &Case, variant: &str, filter: F) {
+        let snapshot = filter.snapshot();
+        if variant == "generated_f64" {
+            self.reference = snapshot;
+            return;
+        }
+        let largest = snapshot
+            .iter()
+            .zip(&self.reference)
+            .map(|(value, reference)| (value - reference).abs() / (1.0 + reference.abs()))
+            .fold(0.0, f64::max);
+        println!("agreement {}/{variant} with generated_f64: {largest:.1e}", case.spec);
+    }
+}
+
 /// Criterion wall-time benchmarks: group `<spec>/<variant>`, one function per operation.
 struct WallTime<'a>(&'a mut Criterion);
 
@@ -224,6 +248,7 @@ fn main() {
         );
         return;
     }
+    visit_all(&mut Agreement::default());
     let mut table = AllocationTable {
         failures: Vec::new(),
     };

@@ -167,7 +167,10 @@ impl Visitor for Agreement {
             .zip(&self.reference)
             .map(|(value, reference)| (value - reference).abs() / (1.0 + reference.abs()))
             .fold(0.0, f64::max);
-        println!("agreement {}/{variant} with generated_f64: {largest:.1e}", case.spec);
+        println!(
+            "agreement {}/{variant} with generated_f64: {largest:.1e}",
+            case.spec
+        );
     }
 }
 

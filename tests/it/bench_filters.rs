@@ -92,6 +92,15 @@ fn assert_filters_agree<E: Filter, A: Filter>(
     accepted
 }
 
+/// Every step of a scenario reads every sensor once, in order, so every correction is
+/// compared.
+fn assert_every_sensor_reads(steps: &[Step], sensors: usize) {
+    for step in steps {
+        let order: Vec<usize> = step.readings.iter().map(|reading| reading.sensor).collect();
+        assert_eq!(order, (0..sensors).collect::<Vec<_>>());
+    }
+}
+
 /// Checks that nearly every operation was accepted, so the comparison covers updates:
 /// a 99 % gate rejects about one honest reading in a hundred.
 fn assert_mostly_accepted(label: &str, accepted: usize, steps: &[Step]) {
@@ -105,6 +114,7 @@ fn assert_mostly_accepted(label: &str, accepted: usize, steps: &[Step]) {
 #[test]
 fn rail_cart_hand_written_and_finite_difference_match_generated() {
     let steps = rail_cart::scenario(STEPS);
+    assert_every_sensor_reads(&steps, rail_cart::SENSORS.len());
     let generated = rail_cart::GeneratedF64::from_spec();
     let accepted = assert_filters_agree(
         "rail_cart hand",
@@ -128,6 +138,7 @@ fn rail_cart_hand_written_and_finite_difference_match_generated() {
 #[test]
 fn pallet_robot_hand_written_and_finite_difference_match_generated() {
     let steps = pallet_robot::scenario(STEPS);
+    assert_every_sensor_reads(&steps, pallet_robot::SENSORS.len());
     let generated = pallet_robot::GeneratedF64::from_spec();
     let accepted = assert_filters_agree(
         "pallet_robot hand",
@@ -151,6 +162,7 @@ fn pallet_robot_hand_written_and_finite_difference_match_generated() {
 #[test]
 fn survey_launch_hand_written_and_finite_difference_match_generated() {
     let steps = survey_launch::scenario(STEPS);
+    assert_every_sensor_reads(&steps, survey_launch::SENSORS.len());
     let generated = survey_launch::GeneratedF64::from_spec();
     let accepted = assert_filters_agree(
         "survey_launch hand",

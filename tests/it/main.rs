@@ -7,11 +7,8 @@ mod generated;
 mod ir_reference;
 mod runtime_reference;
 
-/// The filters the estimator benchmarks compare, shared with `benches/estimators.rs`
-/// (which uses the parts these tests do not, such as the `f32` finite-difference-free
-/// rows).
+/// The filters the estimator benchmarks compare, shared with `benches/estimators.rs`.
 #[path = "../benches/filters/mod.rs"]
-#[allow(dead_code)]
 mod filters;
 
 /// Counts allocations per thread so tests can check that a step allocates nothing.

@@ -81,18 +81,18 @@ macro_rules! generated_filter {
                 use reckon_tests::$module as m;
                 use $crate::filters::{array, Scalar};
                 self.0
-                    .predict(&m::Input::from_array(array(input)), <$t>::from_f64(dt))
+                    .predict(&m::Input::from_array(array(input)), <$t as Scalar>::from_f64(dt))
                     .is_ok()
             }
 
             fn correct(&mut self, sensor: usize, reading: &[f64], args: &[f64]) -> bool {
                 use reckon_tests::$module as m;
-                use $crate::filters::{array, Scalar};
+                use $crate::filters::array;
                 let _ = args;
                 match sensor {
                     $($index => self
                         .0
-                        .$method(&m::$reading::from_array(array(reading)) $(, <$t>::from_f64(args[$arg]))*)
+                        .$method(&m::$reading::from_array(array(reading)) $(, <$t as $crate::filters::Scalar>::from_f64(args[$arg]))*)
                         .is_ok(),)*
                     _ => false,
                 }

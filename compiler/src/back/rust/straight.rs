@@ -107,7 +107,9 @@ pub(crate) fn block(
 /// The base `x` when node `id` is `x^2` with a constant exponent of exactly two.
 fn squared_base(arena: &Arena, id: NodeId) -> Option<NodeId> {
     match *arena.node(id) {
-        Node::Binary(Binary::Pow, base, exponent) if arena.constant_value(exponent) == Some(2.0) => {
+        Node::Binary(Binary::Pow, base, exponent)
+            if arena.constant_value(exponent) == Some(2.0) =>
+        {
             Some(base)
         }
         _ => None,

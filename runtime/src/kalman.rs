@@ -454,6 +454,11 @@ where
 }
 
 /// `(I - K H) P (I - K H)^T + K R K^T`, valid for any gain `K`.
+///
+/// The products are associated so that no `N x N` matrix is multiplied by another:
+/// `B = (I - K H) P = P - K (H P)`, then `B (I - K H)^T = B - (B H^T) K^T`, then
+/// `+ (K R) K^T`. That is the same congruence as forming `I - K H` first (nothing relies
+/// on `K` being the optimal gain), at `O(N^2 M)` instead of `O(N^3)` operations.
 pub fn joseph_covariance<T: Real, N: Dim, M: Dim>(
     p: &OMatrix<T, N, N>,
     h: &OMatrix<T, M, N>,
@@ -463,12 +468,14 @@ pub fn joseph_covariance<T: Real, N: Dim, M: Dim>(
 where
     DefaultAllocator: Allocator<N, N> + Allocator<M, M> + Allocator<M, N> + Allocator<N, M>,
 {
-    let (rows, cols) = p.shape_generic();
-    let mut complement = OMatrix::<T, N, N>::identity_generic(rows, cols);
-    complement.gemm(-T::one(), gain, h, T::one());
-    let mut result = &complement * p * complement.transpose();
+    let hp = h * p;
+    let mut result = p.clone();
+    result.gemm(-T::one(), gain, &hp, T::one());
+    let bht = &result * h.transpose();
+    let gain_t = gain.transpose();
+    result.gemm(-T::one(), &bht, &gain_t, T::one());
     let kr = gain * r;
-    result.gemm(T::one(), &kr, &gain.transpose(), T::one());
+    result.gemm(T::one(), &kr, &gain_t, T::one());
     result
 }
 

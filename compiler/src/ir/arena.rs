@@ -27,7 +27,7 @@
 //! `b + a` are one node (IEEE `+` and `*` commute exactly). Nothing is reassociated:
 //! `(a + b) + c` and `a + (b + c)` stay different, because their values differ.
 
-use std::collections::HashMap;
+use std::collections::{HashMap, HashSet};
 
 use super::eval::{apply_binary, apply_unary};
 use super::node::{Binary, Constant, Node, NodeId, Symbol, Unary};
@@ -250,19 +250,19 @@ impl Arena {
     /// The handles reachable from `roots` (roots included), in increasing order:
     /// the evaluation order of the interpreter and of generated code.
     pub fn reachable(&self, roots: &[NodeId]) -> Vec<NodeId> {
-        let mut seen = vec![false; self.nodes.len()];
+        // Costs the size of the roots' cone, not of the arena: a Jacobian asks for the
+        // cone of one small entry thousands of times while the arena keeps growing.
+        let mut seen = HashSet::new();
+        let mut found = Vec::new();
         let mut stack: Vec<NodeId> = roots.to_vec();
         while let Some(id) = stack.pop() {
-            if std::mem::replace(&mut seen[id.index()], true) {
-                continue;
+            if seen.insert(id) {
+                found.push(id);
+                stack.extend(self.node(id).operands());
             }
-            stack.extend(self.node(id).operands());
         }
-        seen.iter()
-            .enumerate()
-            .filter(|(_, &s)| s)
-            .map(|(i, _)| NodeId(i as u32))
-            .collect()
+        found.sort_unstable();
+        found
     }
 
     /// `root` with symbols replaced by nodes (`replace` returns `None` to keep a

@@ -14,18 +14,31 @@
 //! `a ^ b` uses `b a^(b-1) a'` when `b` does not depend on the variable and
 //! `a^b (b' ln a + b a' / a)` otherwise.
 
+use std::collections::HashSet;
+
 use super::node::{Binary, Node, NodeId, Symbol, Unary};
 use super::{Arena, NodeMatrix};
 
 impl Arena {
     /// The derivative of `node` with respect to `wrt`, memoised per `(node, wrt)`.
     pub fn derivative(&mut self, node: NodeId, wrt: Symbol) -> NodeId {
-        // Operands first, in topological order, so no recursion is needed.
-        for id in self.reachable(&[node]) {
-            if !self.derivatives.contains_key(&(id, wrt)) {
-                let d = self.derivative_of_node(id, wrt);
-                self.derivatives.insert((id, wrt), d);
+        // The nodes of the cone not yet differentiated. A memoised node's whole cone is
+        // memoised (each call completes a cone), so the walk stops there.
+        let mut pending = Vec::new();
+        let mut seen = HashSet::new();
+        let mut stack = vec![node];
+        while let Some(id) = stack.pop() {
+            if !self.derivatives.contains_key(&(id, wrt)) && seen.insert(id) {
+                pending.push(id);
+                stack.extend(self.node(id).operands());
             }
+        }
+        // Operands first, in topological (increasing handle) order, so no recursion is
+        // needed.
+        pending.sort_unstable();
+        for id in pending {
+            let d = self.derivative_of_node(id, wrt);
+            self.derivatives.insert((id, wrt), d);
         }
         self.derivatives[&(node, wrt)]
     }

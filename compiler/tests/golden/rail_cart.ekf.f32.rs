@@ -241,10 +241,7 @@ impl reckon_runtime::MotionModel<f32, Const<2>, Const<1>> for Dynamics<'_> {
     ) {
         let [[x0, x1]] = x.data.0;
         let [[u0]] = u.data.0;
-        *x_next = SVector::from([
-            x0 + x1 * dt + 0.5_f32 * u0 * ComplexField::powf(dt, 2.0_f32),
-            x1 + dt * u0,
-        ]);
+        *x_next = SVector::from([x0 + x1 * dt + 0.5_f32 * u0 * (dt * dt), x1 + dt * u0]);
     }
     fn transition_jacobian(
         &self,
@@ -264,7 +261,7 @@ impl reckon_runtime::MotionModel<f32, Const<2>, Const<1>> for Dynamics<'_> {
         dt: f32,
         noise: &mut SMatrix<f32, 2, 2>,
     ) {
-        let t27 = 0.5_f32 * ComplexField::powf(dt, 2.0_f32);
+        let t27 = 0.5_f32 * (dt * dt);
         let variance0 = self.tuning.position_step_sigma
             * self.tuning.position_step_sigma;
         let variance1 = self.tuning.speed_step_sigma * self.tuning.speed_step_sigma;

@@ -5,7 +5,10 @@
 //!
 //! Inlining a single-use node does not change any value: nodes are pure, and each
 //! keeps its own operation and operand grouping, so the result is the interpreter's
-//! (`ir::eval`) operation for operation.
+//! (`ir::eval`) operation for operation, with one exception: a square `x^2` is
+//! written `x * x`, the exactly rounded square, instead of a call to `powf` (which
+//! costs tens of instructions); the interpreter's `powf` may differ from it in the last
+//! bit where the math library's `pow` is not correctly rounded.
 
 use std::collections::{BTreeSet, HashMap};
 
@@ -62,6 +65,10 @@ pub(crate) fn block(
         for operand in arena.node(id).operands() {
             *uses.entry(operand).or_default() += 1;
         }
+        if let Some(base) = squared_base(arena, id) {
+            // `x * x` reads its base twice: bind it rather than compute it twice.
+            *uses.entry(base).or_default() += 1;
+        }
     }
     for &root in roots {
         *uses.entry(root).or_default() += 1;
@@ -94,6 +101,18 @@ pub(crate) fn block(
         roots,
         symbols: emitter.symbols,
         traits: emitter.traits,
+    }
+}
+
+/// The base `x` when node `id` is `x^2` with a constant exponent of exactly two.
+fn squared_base(arena: &Arena, id: NodeId) -> Option<NodeId> {
+    match *arena.node(id) {
+        Node::Binary(Binary::Pow, base, exponent)
+            if arena.constant_value(exponent) == Some(2.0) =>
+        {
+            Some(base)
+        }
+        _ => None,
     }
 }
 
@@ -139,6 +158,10 @@ impl Emitter<'_> {
             }
             Node::Binary(op, a, b) => {
                 let minus_one = |id| self.arena.constant_value(id) == Some(-1.0);
+                if squared_base(self.arena, id).is_some() {
+                    let base = self.operand(a);
+                    return base.binary(quote!(*), &base, Prec::Product);
+                }
                 if op == Binary::Mul && (minus_one(a) || minus_one(b)) {
                     // `-1 * x` is exactly `-x`, and reads as such.
                     let other = if minus_one(a) { b } else { a };

@@ -17,6 +17,7 @@ fi
 
 echo "## Estimators: allocations and wall time"
 cargo bench -q -p reckon-tests --bench estimators -- "${criterion_args[@]}"
+cargo bench -q -p reckon-tests --bench bayes_estimators -- "${criterion_args[@]}"
 echo "## Compiler: check and generate"
 cargo bench -q -p reckon --bench compile -- "${criterion_args[@]}"
 echo "## Grid and particle filters"

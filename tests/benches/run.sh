@@ -17,11 +17,11 @@ fi
 
 echo "## Estimators: allocations and wall time"
 cargo bench -q -p reckon-tests --bench estimators -- "${criterion_args[@]}"
-cargo bench -q -p reckon-tests --bench bayes_estimators -- "${criterion_args[@]}"
 echo "## Compiler: check and generate"
 cargo bench -q -p reckon --bench compile -- "${criterion_args[@]}"
 echo "## Grid and particle filters"
 cargo bench -q -p reckon-runtime --bench bayes -- "${criterion_args[@]}"
+cargo bench -q -p reckon-tests --bench bayes_estimators -- "${criterion_args[@]}"
 
 if [ "$quick" = false ]; then
   mean_ns() { jq '.mean.point_estimate' "target/criterion/$1/new/estimates.json"; }

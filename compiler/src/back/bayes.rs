@@ -659,4 +659,6 @@ fn gate_warnings(model: &Model) -> Vec<Diagnostic> {
 }
 
 #[cfg(test)]
+pub(crate) mod test_specs;
+#[cfg(test)]
 mod tests;

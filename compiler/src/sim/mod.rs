@@ -73,6 +73,22 @@ pub(crate) struct Prepared {
     pub warnings: Vec<Diagnostic>,
 }
 
+impl Prepared {
+    /// The machinery of the scenario's runs over this prepared spec.
+    pub(crate) fn machinery(
+        &self,
+        scenario: &Scenario,
+    ) -> Result<run::Machinery<'_>, run::SetupError> {
+        run::Machinery::new(
+            &self.plan,
+            &self.model,
+            &self.lowered,
+            &scenario.options(),
+            self.bayes.as_ref().map(|(plan, layout)| (plan, *layout)),
+        )
+    }
+}
+
 /// Reads, checks and lowers the scenario's spec and resolves the scenario.
 pub(crate) fn prepare(project_dir: &Path, scenario: &Scenario) -> Result<Prepared, SimError> {
     let path = project_dir.join(scenario.spec.get_ref());
@@ -211,17 +227,9 @@ pub fn run_scenario(
     progress: &(dyn Fn(usize, usize) + Sync),
 ) -> Result<SimReport, SimError> {
     let prepared = prepare(project_dir, scenario)?;
-    let machinery = run::Machinery::new(
-        &prepared.plan,
-        &prepared.model,
-        &prepared.lowered,
-        &scenario.options(),
-        prepared
-            .bayes
-            .as_ref()
-            .map(|(plan, layout)| (plan, *layout)),
-    )
-    .map_err(|error| setup_error(error, &prepared, scenario))?;
+    let machinery = prepared
+        .machinery(scenario)
+        .map_err(|error| setup_error(error, &prepared, scenario))?;
     let runs = prepared.plan.runs;
     let records = monte_carlo(&machinery, runs, progress).map_err(|error| {
         SimError::Scenario(vec![Diagnostic::new(

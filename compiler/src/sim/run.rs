@@ -652,14 +652,7 @@ mod tests {
     fn reading_noise_is_drawn_with_each_components_shape() {
         let dir = std::env::temp_dir().join(format!("reckon-sim-shape-{}", std::process::id()));
         std::fs::create_dir_all(&dir).expect("temp dir");
-        let spec = "model cart
-state { x : m in 0 m .. 10 m by 10 cm }
-input { v : m/s ~ normal(0.1 m/s) }
-motion discrete { x = x + v * dt }
-process { x ~ triangle(2 cm) }
-sensor wall { d : m = 10 m - x
-  noise ~ uniform(5 cm) }
-";
+        let spec = crate::back::bayes::test_specs::MIXED_NOISE;
         std::fs::write(dir.join("cart.reckon"), spec).expect("spec written");
         let project = crate::project::parse_project(
             r#"
@@ -680,17 +673,9 @@ sensor wall { d : m = 10 m - x
         let prepared = super::super::prepare(&dir, scenario);
         std::fs::remove_dir_all(&dir).expect("cleanup");
         let prepared = prepared.unwrap_or_else(|e| panic!("{e:?}"));
-        let machinery = Machinery::new(
-            &prepared.plan,
-            &prepared.model,
-            &prepared.lowered,
-            &scenario.options(),
-            prepared
-                .bayes
-                .as_ref()
-                .map(|(plan, layout)| (plan, *layout)),
-        )
-        .unwrap_or_else(|e| panic!("{e:?}"));
+        let machinery = prepared
+            .machinery(scenario)
+            .unwrap_or_else(|e| panic!("{e:?}"));
         let mut rng = Pcg64::seed_from_u64(4);
         let count = 40_000;
         let draws: Vec<f64> = (0..count)

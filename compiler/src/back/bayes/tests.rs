@@ -1,21 +1,6 @@
+use super::test_specs::{checked_model as model, options, MARKER_TRACK, MIXED_NOISE};
 use super::*;
-use crate::check::check_source;
 use crate::options::EstimatorOptions;
-
-fn model(text: &str) -> Model {
-    let checked = check_source(text);
-    match checked.model {
-        Some(model) => model,
-        None => panic!("spec does not check: {:?}", checked.diagnostics),
-    }
-}
-
-fn options(method: Method) -> EstimatorOptions {
-    EstimatorOptions {
-        method,
-        ..EstimatorOptions::default()
-    }
-}
 
 fn refusal_codes(text: &str, options: &EstimatorOptions) -> Vec<&'static str> {
     match plan(&model(text), options) {
@@ -23,18 +8,6 @@ fn refusal_codes(text: &str, options: &EstimatorOptions) -> Vec<&'static str> {
         Err(errors) => errors.iter().map(|e| e.code.id).collect(),
     }
 }
-
-const MARKER_TRACK: &str = include_str!("../../../../specs/marker_track.reckon");
-
-/// A 1-D cart whose slip is triangular and whose odometry is noisy too.
-const MIXED_NOISE: &str = "model cart
-state { x : m in 0 m .. 10 m by 10 cm }
-input { v : m/s ~ normal(0.1 m/s) }
-motion discrete { x = x + v * dt }
-process { x ~ triangle(2 cm) }
-sensor wall { d : m = 10 m - x
-  noise ~ uniform(5 cm) }
-";
 
 #[test]
 fn marker_track_is_a_translated_grid_of_800_cells() {

@@ -4,37 +4,16 @@ use reckon_runtime::particle::{ParticleFilter, ParticleOptions, Pcg32, SampledMo
 
 use super::*;
 use crate::back::bayes::plan;
-use crate::check::check_source;
-use crate::options::{EstimatorOptions, Method};
+use crate::back::bayes::test_specs::{checked_model, options, MARKER_TRACK, MIXED_NOISE};
+use crate::options::Method;
 
 fn bayes_plan(text: &str, method: Method) -> BayesPlan {
-    let checked = check_source(text);
-    let Some(model) = checked.model else {
-        panic!("spec does not check: {:?}", checked.diagnostics);
-    };
-    let options = EstimatorOptions {
-        method,
-        ..EstimatorOptions::default()
-    };
-    plan(&model, &options).unwrap_or_else(|e| panic!("no plan: {e:?}"))
+    plan(&checked_model(text), &options(method)).unwrap_or_else(|e| panic!("no plan: {e:?}"))
 }
 
 fn nothing() -> SVector<f64, 0> {
     SVector::zeros()
 }
-
-const MARKER_TRACK: &str = include_str!("../../../../specs/marker_track.reckon");
-
-/// A 1-D cart whose slip is triangular, whose odometry is noisy and whose wall
-/// sensor has uniform noise.
-const MIXED_NOISE: &str = "model cart
-state { x : m in 0 m .. 10 m by 10 cm }
-input { v : m/s ~ normal(0.1 m/s) }
-motion discrete { x = x + v * dt }
-process { x ~ triangle(2 cm) }
-sensor wall { d : m = 10 m - x
-  noise ~ uniform(5 cm) }
-";
 
 /// A linear Gaussian random walk read directly: the Kalman filter is its exact
 /// posterior.
